@@ -1,0 +1,5 @@
+import sys
+
+from lowdim.cli import main
+
+sys.exit(main())
