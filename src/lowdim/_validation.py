@@ -147,7 +147,11 @@ class _Literal:
 
 NONE = _Literal(None, "None")
 BOOL = _Literal(bool, "a bool")
-RANDOM_STATE = [NONE, Interval(int, 0, 2**32 - 1), Instance((np.random.RandomState,), "a RandomState")]
+RANDOM_STATE = [
+    NONE,
+    Interval(int, 0, 2**32 - 1),
+    Instance((np.random.RandomState,), "a RandomState"),
+]
 
 
 def check_param(owner: str, name: str, value: Any, allowed: list, sizes: dict[str, int]) -> None:
@@ -160,12 +164,12 @@ def check_param(owner: str, name: str, value: Any, allowed: list, sizes: dict[st
     if isinstance(value, str):
         choices = [v for form in allowed if isinstance(form, Options) for v in form.values]
         hint = suggestion(value, choices)
-    raise InputError(
-        f"the parameter `{name}` of `{owner}` must be {rule}, got {value!r}{hint}"
-    )
+    raise InputError(f"the parameter `{name}` of `{owner}` must be {rule}, got {value!r}{hint}")
 
 
-def check_params(estimator: Any, *, n_samples: int | None = None, n_features: int | None = None) -> None:
+def check_params(
+    estimator: Any, *, n_samples: int | None = None, n_features: int | None = None
+) -> None:
     """Check every parameter of ``estimator`` against its class's ``_param_specs``."""
     specs = getattr(type(estimator), "_param_specs", {})
     sizes = {}

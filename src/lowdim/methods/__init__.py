@@ -154,9 +154,7 @@ def import_object(target: str) -> Any:
             ) from None
         raise PluginError(f"importing {target!r} failed: {exc}") from exc
     except Exception as exc:
-        raise PluginError(
-            f"importing {target!r} failed: {type(exc).__name__}: {exc}"
-        ) from exc
+        raise PluginError(f"importing {target!r} failed: {type(exc).__name__}: {exc}") from exc
     obj = module
     for part in attr.split("."):
         if not hasattr(obj, part):
@@ -183,8 +181,7 @@ def get_method(name: str) -> type:
     if name in _ADDED:
         return _ADDED[name]
     raise InputError(
-        f"unknown method {name!r}{suggestion(name, method_names())}; "
-        f"`lowdim methods` lists them"
+        f"unknown method {name!r}{suggestion(name, method_names())}; `lowdim methods` lists them"
     )
 
 
