@@ -9,6 +9,8 @@ Martinsson & Tropp, SIAM Review 53, 2011) when asked. Every solver's start is dr
 
 from __future__ import annotations
 
+import contextlib
+import warnings
 from typing import NamedTuple
 
 import numpy as np
@@ -17,7 +19,15 @@ import scipy.sparse
 import scipy.sparse.linalg
 from sklearn.utils import check_random_state
 
-__all__ = ["EigenResult", "fix_signs", "top_eigenpairs", "DENSE_LIMIT"]
+__all__ = [
+    "EigenResult",
+    "fix_signs",
+    "top_eigenpairs",
+    "DENSE_LIMIT",
+    "LAPLACIAN_SOLVERS",
+    "SolverFallbackWarning",
+    "smallest_laplacian_eigenpairs",
+]
 
 # Below this size a dense eigh (subset) is faster and more robust than Lanczos.
 DENSE_LIMIT = 600
@@ -133,3 +143,221 @@ def top_eigenpairs(
         )
     vectors = fix_signs(np.ascontiguousarray(vectors))
     return EigenResult(values, vectors, solver)
+
+
+# ---------------------------------------------------------------------------------------
+# smallest eigenpairs of a graph Laplacian
+
+LAPLACIAN_SOLVERS = ("auto", "amg", "arpack", "dense")
+# The dense last resort holds an n x n array; above this size a failure is raised instead.
+DENSE_FALLBACK_LIMIT = 6000
+# LOBPCG below this many nodes per wanted vector is unreliable (it falls back to eigh inside).
+_LOBPCG_MIN_NODES_PER_VECTOR = 5
+
+
+class SolverFallbackWarning(RuntimeWarning):
+    """An eigen-solver failed and the next one in the chain was used."""
+
+
+class _SolverFailed(Exception):
+    """One solver of the chain did not deliver converged eigenpairs."""
+
+
+@contextlib.contextmanager
+def _seeded_global_rng(seed: int):
+    # pyamg draws the start vectors of its spectral-radius estimates from numpy's global
+    # generator; seed it so the preconditioner (and so the result) repeats, then restore it.
+    state = np.random.get_state()
+    np.random.seed(seed)
+    try:
+        yield
+    finally:
+        np.random.set_state(state)
+
+
+def _residual_norms(L, values: np.ndarray, vectors: np.ndarray) -> np.ndarray:
+    return np.linalg.norm(L @ vectors - vectors * values, axis=0)
+
+
+def _laplacian_dense(L, k: int) -> tuple[np.ndarray, np.ndarray]:
+    A = L.toarray() if scipy.sparse.issparse(L) else np.asarray(L, dtype=np.float64)
+    return scipy.linalg.eigh(A, subset_by_index=(0, k - 1))
+
+
+def _laplacian_arpack(
+    L, k: int, rng: np.random.RandomState, scale: float
+) -> tuple[np.ndarray, np.ndarray]:
+    n = L.shape[0]
+    if k >= n - 1:
+        raise _SolverFailed(f"ARPACK needs k < n - 1, got k = {k} for n = {n}")
+    v0 = rng.uniform(-1.0, 1.0, n)
+    # Shift-invert just below 0: L - sigma I is positive definite, so its LU never meets the
+    # exact zero eigenvalue of the Laplacian.
+    try:
+        values, vectors = scipy.sparse.linalg.eigsh(
+            scipy.sparse.csc_matrix(L), k=k, sigma=-1e-5 * scale, which="LM", v0=v0
+        )
+    except (RuntimeError, scipy.sparse.linalg.ArpackError) as exc:
+        raise _SolverFailed(f"ARPACK shift-invert failed: {exc}") from exc
+    order = np.argsort(values)
+    return values[order], vectors[:, order]
+
+
+def _laplacian_amg(
+    L,
+    k: int,
+    null_vector: np.ndarray | None,
+    rng: np.random.RandomState,
+    tol: float,
+    scale: float,
+    maxiter: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    import pyamg
+
+    n = L.shape[0]
+    known = 0 if null_vector is None else 1
+    wanted = k - known
+    # A few vectors beyond the wanted ones speed up the convergence of the last wanted one.
+    block = min(wanted + max(2, wanted // 2), n - known - 1)
+    if n < _LOBPCG_MIN_NODES_PER_VECTOR * (block + known):
+        raise _SolverFailed(
+            f"LOBPCG is unreliable for {n} nodes and {block + known} vectors (it needs at least "
+            f"{_LOBPCG_MIN_NODES_PER_VECTOR} nodes per vector)"
+        )
+    L = scipy.sparse.csr_matrix(L)
+    # The Laplacian is singular; a multigrid hierarchy of a singular matrix is a poor
+    # preconditioner, so it is built on a slightly shifted copy (the eigenproblem is not).
+    shifted = L + scipy.sparse.identity(n, format="csr") * (1e-5 * scale)
+    candidates = np.ones((n, 1)) if null_vector is None else null_vector[:, None]
+    with _seeded_global_rng(int(rng.randint(2**31 - 1))):
+        hierarchy = pyamg.smoothed_aggregation_solver(shifted, B=candidates)
+    M = hierarchy.aspreconditioner()
+    X0 = rng.standard_normal((n, block))
+    Y = None if null_vector is None else null_vector[:, None]
+    with warnings.catch_warnings():
+        # LOBPCG warns when it stops short of `tol`; the residuals are checked below instead.
+        warnings.simplefilter("ignore", UserWarning)
+        values, vectors = scipy.sparse.linalg.lobpcg(
+            L, X0, M=M, Y=Y, tol=tol, maxiter=maxiter, largest=False
+        )
+    order = np.argsort(values)[:wanted]
+    values, vectors = values[order], vectors[:, order]
+    worst = float(np.max(_residual_norms(L, values, vectors), initial=0.0))
+    if not np.isfinite(worst) or worst > 10.0 * tol:
+        raise _SolverFailed(
+            f"AMG-preconditioned LOBPCG did not converge in {maxiter} iterations "
+            f"(largest residual {worst:.2e}, tolerance {tol:.2e})"
+        )
+    if null_vector is not None:
+        null = null_vector[:, None]
+        values = np.concatenate([[float(null[:, 0] @ (L @ null[:, 0]))], values])
+        vectors = np.hstack([null, vectors])
+    return values, vectors
+
+
+def smallest_laplacian_eigenpairs(
+    L,
+    k: int,
+    *,
+    null_vector: np.ndarray | None = None,
+    solver: str = "auto",
+    random_state=None,
+    tol: float | None = None,
+    maxiter: int = 200,
+) -> EigenResult:
+    """Return the ``k`` smallest eigenpairs of a graph Laplacian, trying solvers in turn.
+
+    The chain is AMG-preconditioned LOBPCG (Knyazev 2001; the preconditioner a pyamg
+    smoothed-aggregation hierarchy seeded with the Laplacian's known null vector), then
+    shift-invert ARPACK, then a dense ``eigh`` for small n. Each fallback is announced by a
+    :class:`SolverFallbackWarning` saying why the previous solver failed.
+
+    Parameters
+    ----------
+    L : sparse matrix or ndarray of shape (n, n)
+        A symmetric positive semi-definite Laplacian: D - W, or I - D^-1/2 W D^-1/2.
+    k : int
+        Number of eigenpairs, ``1 <= k <= n``, the null vector included.
+    null_vector : ndarray of shape (n,), optional
+        A known unit eigenvector for the eigenvalue 0: sqrt(degree) / |sqrt(degree)| for the
+        normalized Laplacian, the constant vector for D - W. LOBPCG then searches only its
+        orthogonal complement and the multigrid hierarchy is built to reproduce it.
+    solver : {"auto", "amg", "arpack", "dense"}, default="auto"
+        Where the chain starts. ``"auto"`` is ``"dense"`` for ``n <= DENSE_LIMIT`` and
+        ``"amg"`` otherwise.
+    random_state : int, RandomState or None
+        Seeds the LOBPCG start block, pyamg's internal draws and the ARPACK start vector.
+    tol : float, optional
+        LOBPCG's residual tolerance; default ``1e-6 * sqrt(n)`` times the Laplacian's scale
+        (its largest diagonal entry).
+    maxiter : int, default=200
+        LOBPCG's iteration limit.
+
+    Returns
+    -------
+    EigenResult
+        ``values`` in ascending order, ``vectors`` as columns with signs fixed, and
+        ``solver``, the solver that produced them (``"amg"``, ``"arpack"`` or ``"dense"``).
+
+    References
+    ----------
+    .. [1] A. V. Knyazev, "Toward the optimal preconditioned eigensolver: locally optimal
+       block preconditioned conjugate gradient method", SIAM Journal on Scientific
+       Computing 23 (2001), 517-541. https://doi.org/10.1137/S1064827500366124
+    .. [2] P. Vanek, J. Mandel and M. Brezina, "Algebraic multigrid by smoothed aggregation
+       for second and fourth order elliptic problems", Computing 56 (1996), 179-196.
+       https://doi.org/10.1007/BF02238511
+    """
+    n = L.shape[0]
+    if L.ndim != 2 or L.shape[1] != n:
+        raise ValueError(f"`L` must be a square matrix, got shape {L.shape}")
+    if not 1 <= k <= n:
+        raise ValueError(f"`k` must satisfy 1 <= k <= n = {n}, got {k}")
+    if solver not in LAPLACIAN_SOLVERS:
+        raise ValueError(f"`solver` must be one of {LAPLACIAN_SOLVERS}, got {solver!r}")
+    if null_vector is not None:
+        null_vector = np.asarray(null_vector, dtype=np.float64).ravel()
+        if null_vector.shape != (n,):
+            raise ValueError(f"`null_vector` must have shape ({n},), got {null_vector.shape}")
+        null_vector = null_vector / np.linalg.norm(null_vector)
+    rng = check_random_state(random_state)
+    diagonal = L.diagonal()
+    scale = float(np.max(np.abs(diagonal))) if diagonal.size else 1.0
+    scale = scale if scale > 0.0 else 1.0
+    if tol is None:
+        tol = 1e-6 * np.sqrt(n) * scale
+    if solver == "auto":
+        solver = "dense" if n <= DENSE_LIMIT else "amg"
+    chain = list(LAPLACIAN_SOLVERS[LAPLACIAN_SOLVERS.index(solver) :])
+    reasons = []
+    for name in chain:
+        if name == "dense" and n > DENSE_FALLBACK_LIMIT:
+            break
+        try:
+            if name == "amg":
+                values, vectors = _laplacian_amg(L, k, null_vector, rng, tol, scale, maxiter)
+            elif name == "arpack":
+                values, vectors = _laplacian_arpack(L, k, rng, scale)
+            else:
+                values, vectors = _laplacian_dense(L, k)
+        except _SolverFailed as exc:
+            reasons.append(str(exc))
+            following = chain[chain.index(name) + 1] if name != chain[-1] else None
+            if following is not None and not (following == "dense" and n > DENSE_FALLBACK_LIMIT):
+                warnings.warn(
+                    f"{exc}; falling back to the '{following}' solver",
+                    SolverFallbackWarning,
+                    stacklevel=2,
+                )
+            continue
+        vectors = fix_signs(np.ascontiguousarray(vectors))
+        return EigenResult(np.asarray(values, dtype=np.float64), vectors, name)
+    raise RuntimeError(
+        f"no eigen-solver found the {k} smallest eigenpairs of the {n} x {n} Laplacian: "
+        + "; ".join(reasons)
+        + (
+            f"; the dense solver is not tried above n = {DENSE_FALLBACK_LIMIT}"
+            if n > DENSE_FALLBACK_LIMIT
+            else ""
+        )
+    )
