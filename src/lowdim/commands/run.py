@@ -1,0 +1,100 @@
+"""``lowdim run SUITE``: run a suite's jobs in parallel, record them, build the report."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from lowdim.runner import BACKENDS, RunSummary, run_suite
+from lowdim.store import Store
+from lowdim.suites import Suite, load_suite
+
+HELP = "run a suite of datasets x methods x seeds, resuming where a previous run stopped"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument(
+        "suite", metavar="SUITE", help="the suite file (TOML), e.g. suites/quick.toml"
+    )
+    parser.add_argument(
+        "--out", metavar="DIR", help="results folder (default: results/<suite name>/)"
+    )
+    parser.add_argument(
+        "--jobs", "-j", type=int, default=1, metavar="N", help="parallel jobs (-1: every core)"
+    )
+    parser.add_argument("--backend", choices=BACKENDS, default="loky", help="parallel backend")
+    parser.add_argument(
+        "--scheduler", metavar="ADDRESS", help="dask scheduler address (with --backend dask)"
+    )
+    again = parser.add_mutually_exclusive_group()
+    again.add_argument("--force", action="store_true", help="recompute every job")
+    again.add_argument(
+        "--retry",
+        action="store_true",
+        help="rerun the jobs that failed, timed out or ran out of memory",
+    )
+    parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
+
+
+def leaderboard_lines(out_dir: Path, suite: Suite) -> list[str]:
+    """The mean headline criterion per dataset (rows) and method (columns), as text lines."""
+    with Store(out_dir, create=False) as store:
+        ks = sorted(
+            k
+            for (k,) in store.db.execute(
+                "SELECT DISTINCT k FROM scores WHERE metric = ?", (suite.headline,)
+            )
+        )
+        if not ks:
+            return [f"no `{suite.headline}` scores to show"]
+        k = 0 if 0 in ks else ks[len(ks) // 2]
+        means = store.headline_means(suite.headline, k)
+    datasets = [e.label for e in suite.datasets]
+    methods = [e.label for e in suite.methods]
+    title = suite.headline if k == 0 else f"{suite.headline} (K = {k})"
+    first = max(len("dataset"), *(len(d) for d in datasets))
+    widths = [max(7, len(m)) for m in methods]
+    lines = [f"mean {title} over seeds", ""]
+    lines.append(
+        "  ".join(
+            ["dataset".ljust(first), *(m.rjust(w) for m, w in zip(methods, widths, strict=True))]
+        )
+    )
+    for d in datasets:
+        cells = []
+        for m, w in zip(methods, widths, strict=True):
+            value = means.get((d, m))
+            cells.append(("-" if value is None else f"{value:.3f}").rjust(w))
+        lines.append("  ".join([d.ljust(first), *cells]))
+    return lines
+
+
+def summary_line(summary: RunSummary) -> str:
+    parts = [f"{summary.total} jobs", f"{summary.ran} run", f"{summary.skipped} already done"]
+    for status in ("ok", "failed", "timeout", "memory"):
+        if summary.counts.get(status):
+            parts.append(f"{summary.counts[status]} {status}")
+    return f"lowdim: {', '.join(parts)} in {summary.seconds:.1f} s; results in {summary.out_dir}"
+
+
+def run(args: argparse.Namespace) -> int:
+    suite = load_suite(args.suite)
+    out_dir = Path(args.out) if args.out else Path("results") / suite.name
+    summary = run_suite(
+        suite,
+        out_dir,
+        n_jobs=args.jobs,
+        backend=args.backend,
+        scheduler=args.scheduler,
+        force=args.force,
+        retry=args.retry,
+        quiet=args.quiet,
+        plugins=args.plugin,
+    )
+    if summary.report is None:
+        print("\n".join(leaderboard_lines(out_dir, suite)))
+    else:
+        print(f"report: {summary.report}")
+    print(summary_line(summary), file=sys.stderr)
+    return 0
