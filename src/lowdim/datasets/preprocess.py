@@ -1,0 +1,63 @@
+"""Preprocessing named in a dataset spec, applied in a fixed order: log1p, scale, pca_first.
+
+``log1p = true`` maps each value x to log(1 + x) (count data); ``scale = "standard"`` centres
+each column and divides by its standard deviation (ddof = 0), ``"minmax"`` maps each column
+onto [0, 1]; ``pca_first = N`` keeps the first N principal components (a common first step
+before a nonlinear method on wide data, common practice).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from lowdim._validation import BOOL, NONE, Interval, Options
+from lowdim.datasets._base import Param
+from lowdim.errors import InputError
+
+__all__ = ["PREPROCESS_PARAMS", "preprocess"]
+
+PREPROCESS_PARAMS: dict[str, Param] = {
+    "scale": Param(
+        "none", (Options(("none", "standard", "minmax")),), "column scaling after log1p"
+    ),
+    "log1p": Param(False, (BOOL,), "replace each value x by log(1 + x) first"),
+    "pca_first": Param(
+        None, (NONE, Interval(int, 1, None)), "keep this many principal components last"
+    ),
+}
+
+
+def preprocess(
+    X: np.ndarray, spec: dict, where: str, columns: list[str], *, seed: int = 0
+) -> np.ndarray:
+    """Apply the spec's ``log1p``, ``scale`` and ``pca_first`` to ``X`` (never in place)."""
+    if spec.get("log1p", False):
+        too_small = X <= -1.0
+        if too_small.any():
+            row, col = (int(i) for i in np.argwhere(too_small)[0])
+            raise InputError(
+                f"{where}: `log1p = true` needs every value above -1, but column "
+                f"{columns[col]!r} holds {X[row, col]!r} at data row {row + 1} (counting from "
+                "1); drop `log1p` or shift the data"
+            )
+        X = np.log1p(X)
+    scale = spec.get("scale", "none")
+    if scale == "standard":
+        spread = X.std(axis=0)
+        X = (X - X.mean(axis=0)) / np.where(spread > 0, spread, 1.0)
+    elif scale == "minmax":
+        low = X.min(axis=0)
+        span = X.max(axis=0) - low
+        X = (X - low) / np.where(span > 0, span, 1.0)
+    n_keep = spec.get("pca_first")
+    if n_keep is not None:
+        limit = min(X.shape)
+        if n_keep > limit:
+            raise InputError(
+                f"{where}: `pca_first = {n_keep}` asks for more components than the data has "
+                f"(at most min(n_rows, n_columns) = {limit}); lower it"
+            )
+        from sklearn.decomposition import PCA
+
+        X = PCA(n_components=n_keep, random_state=seed).fit_transform(X)
+    return np.ascontiguousarray(X, dtype=np.float64)

@@ -1,0 +1,251 @@
+"""Dataset specs: check one without loading anything, fill in defaults, and load it.
+
+A spec names exactly one source: ``name`` (a generated family or a bundled set), ``file``
+(the user's own data) or ``openml`` (an OpenML id or name, downloaded once and cached).
+``label`` (the display name in a suite) is accepted everywhere and passed through untouched.
+``seed`` is never filled in by :func:`validate_spec`: the runner puts the job's seed into a
+spec that does not fix its own, and :func:`load` uses 0 when there is none.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import numbers
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from lowdim._validation import NONE, Instance, Interval, Options, Pattern, check_param
+from lowdim.datasets import bundled, files, manifolds  # noqa: F401  (they register families)
+from lowdim.datasets._base import Dataset, Param, get_family
+from lowdim.datasets.preprocess import PREPROCESS_PARAMS, preprocess
+from lowdim.errors import InputError, suggestion
+
+__all__ = ["SOURCE_PARAMS", "validate_spec", "load", "describe"]
+
+
+@dataclass(frozen=True)
+class _ColumnList:
+    """A list of distinct column names (or 0-based indexes, for arrays)."""
+
+    def describe(self) -> str:
+        return "a list of distinct column names (or 0-based column indexes for .npy/.npz)"
+
+    def accepts(self, value: Any, sizes: dict[str, int]) -> bool:
+        if not isinstance(value, list | tuple):
+            return False
+        ok = all(
+            isinstance(v, str) or (isinstance(v, numbers.Integral) and not isinstance(v, bool))
+            for v in value
+        )
+        return ok and len(set(value)) == len(value)
+
+
+_STRING = Instance((str,), "a string")
+_DELIMITER = Pattern(r"[^\n\r\"]", "a single character")
+_COLUMNS = _ColumnList()
+_SEED = Param(0, (Interval(int, 0, 2**32 - 1),), "random seed (the suite's by default)")
+_SELECT = {
+    "features": Param(None, (NONE, _COLUMNS), "use only these columns"),
+    "drop": Param([], (_COLUMNS,), "leave out these columns"),
+}
+
+# The keys of a `file` or `openml` spec; a `name` spec takes its family's parameters.
+SOURCE_PARAMS: dict[str, dict[str, Param]] = {
+    "file": {
+        "file": Param(None, (_STRING,), "path to a .csv, .tsv, .parquet, .npy or .npz file"),
+        "labels": Param(
+            None, (NONE, _STRING), "label column (CSV/TSV/Parquet) or array key (.npz)"
+        ),
+        **_SELECT,
+        "delimiter": Param(
+            None,
+            (NONE, _DELIMITER),
+            "CSV/TSV field delimiter (detected when not given)",
+        ),
+        "seed": _SEED,
+        **PREPROCESS_PARAMS,
+    },
+    "openml": {
+        "openml": Param(
+            None, (Interval(int, 1, None), _STRING), "OpenML dataset id (an int) or name"
+        ),
+        "labels": Param(None, (NONE, _STRING), "label column (default: the dataset's target)"),
+        **_SELECT,
+        "cache": Param(
+            None, (NONE, _STRING), "cache folder (default: $LOWDIM_CACHE or ~/.cache/lowdim)"
+        ),
+        "seed": _SEED,
+        **PREPROCESS_PARAMS,
+    },
+}
+
+_SOURCES = ("name", "file", "openml")
+
+
+def _ordinal(where: str) -> str:
+    return f"{where}: " if where else ""
+
+
+def _normalised(value: Any, param: Param) -> Any:
+    # TOML gives 0 for 0.0 and users write "Standard": make equal specs equal, for stable ids.
+    for form in param.allowed:
+        if not form.accepts(value, {}):
+            continue
+        if isinstance(form, Interval):
+            return int(value) if form.kind is int else float(value)
+        if isinstance(form, Options):
+            return value.lower()
+        if isinstance(form, Pattern) and form is not _DELIMITER:
+            return value.lower()
+        if isinstance(form, _ColumnList):
+            return [v if isinstance(v, str) else int(v) for v in value]
+        return value
+    return value
+
+
+def _params_for(spec: Mapping, where: str) -> tuple[str, str, dict[str, Param], Any]:
+    present = [key for key in _SOURCES if key in spec]
+    if len(present) != 1:
+        found = f"got {', '.join(f'`{k}`' for k in present)}" if present else "got none"
+        hint = suggestion(next(iter(spec), ""), _SOURCES) if not present and spec else ""
+        raise InputError(
+            f"{_ordinal(where)}a dataset needs exactly one of `name`, `file` or `openml`, "
+            f"{found}{hint}"
+        )
+    source = present[0]
+    if source != "name":
+        return source, source, SOURCE_PARAMS[source], None
+    if not isinstance(spec["name"], str):
+        raise InputError(f"{_ordinal(where)}`name` must be a string, got {spec['name']!r}")
+    family = get_family(spec["name"], where=where)
+    return source, family.name, {"seed": _SEED, **family.params}, family
+
+
+def validate_spec(spec: dict, *, where: str = "") -> dict:
+    """Check a dataset spec without loading data; return it normalised with defaults filled in.
+
+    Parameters
+    ----------
+    spec : dict
+        A suite's ``[[datasets]]`` table, e.g. ``{"name": "swiss_roll", "n": 800}``.
+    where : str, default=""
+        Names the spec in messages, e.g. ``"suites/quick.toml, the 2nd [[datasets]]"``.
+
+    Returns
+    -------
+    dict
+        The source key first, then every parameter (defaults filled in, numbers and option
+        strings normalised), then ``label`` if given. ``seed`` appears only when given.
+
+    Raises
+    ------
+    InputError
+        For an unknown source, name or key (with the closest valid name) or a bad value.
+    """
+    if not isinstance(spec, Mapping):
+        raise InputError(f"{_ordinal(where)}a dataset spec must be a table, got {spec!r}")
+    source, owner, params, family = _params_for(spec, where)
+    allowed = set(params) | {"name", "label"} if source == "name" else set(params) | {"label"}
+    for key in spec:
+        if key not in allowed:
+            raise InputError(
+                f"{_ordinal(where)}unknown key `{key}` for dataset {owner!r}"
+                f"{suggestion(key, sorted(allowed))}; its keys are {', '.join(sorted(allowed))}"
+            )
+    if "label" in spec and not isinstance(spec["label"], str):
+        raise InputError(f"{_ordinal(where)}`label` must be a string, got {spec['label']!r}")
+    out: dict[str, Any] = {"name": owner} if source == "name" else {}
+    for key, param in params.items():
+        if key in spec:
+            try:
+                check_param(owner, key, spec[key], list(param.allowed), {})
+            except InputError as exc:
+                raise InputError(f"{_ordinal(where)}{exc}") from None
+            out[key] = _normalised(spec[key], param)
+        elif key != "seed":
+            default = param.default
+            out[key] = list(default) if isinstance(default, list) else default
+    if family is not None and family.check is not None:
+        family.check(out, where)
+    if source == "file":
+        kind = files.file_format(out["file"], where)
+        if kind == "npy" and out["labels"] is not None:
+            raise InputError(
+                f"{_ordinal(where)}a .npy file holds one array, so `labels` cannot name a "
+                "column; save X and labels together with numpy.savez(path, X=..., labels=...)"
+            )
+        if kind in ("npy", "npz") and any(
+            isinstance(c, str) for c in (out["features"] or []) + out["drop"]
+        ):
+            raise InputError(
+                f"{_ordinal(where)}the columns of a .{kind} array have no names: give "
+                "`features` and `drop` as 0-based column indexes"
+            )
+    if "label" in spec:
+        out["label"] = spec["label"]
+    return out
+
+
+def load(spec: dict) -> Dataset:
+    """Load the dataset a spec describes (``label``, if present, is ignored).
+
+    Returns
+    -------
+    Dataset
+        ``X`` float64 (n x D), ``labels``, ``truth`` and ``meta`` (``meta["parameters"]`` is
+        the normalised spec).
+    """
+    params = validate_spec(spec)
+    params.pop("label", None)
+    if "file" in params:
+        return files.load_file(params)
+    if "openml" in params:
+        return bundled.load_openml(params)
+    family = get_family(params["name"])
+    dataset = family.build(params)
+    if family.kind == "generated" and _preprocessing_asked(params):
+        columns = [str(i) for i in range(dataset.X.shape[1])]
+        X = preprocess(
+            dataset.X, params, f"the dataset {family.name!r}", columns, seed=params.get("seed", 0)
+        )
+        dataset = dataclasses.replace(dataset, X=X)
+    return dataset
+
+
+def _preprocessing_asked(params: dict) -> bool:
+    return any(params.get(key, p.default) != p.default for key, p in PREPROCESS_PARAMS.items())
+
+
+def describe(name: str) -> dict:
+    """What ``lowdim datasets`` shows for ``name`` (a registered name, ``file`` or ``openml``).
+
+    Returns
+    -------
+    dict
+        ``name``, ``kind``, ``summary``, ``source``, ``citation``, ``parameters`` (name ->
+        default) and ``help`` (name -> one line).
+    """
+    if name in SOURCE_PARAMS:
+        params = SOURCE_PARAMS[name]
+        summary = {
+            "file": "your own data: CSV / TSV (delimiter detected), Parquet, NPY, NPZ",
+            "openml": "an OpenML dataset by id or name, downloaded once and cached",
+        }[name]
+        source = "your file" if name == "file" else "OpenML (openml.org), cached on disk"
+        citation = None if name == "file" else bundled._OPENML_CITATION
+        kind = name
+    else:
+        family = get_family(name)
+        params = {"seed": _SEED, **family.params}
+        name, kind, summary = family.name, family.kind, family.summary
+        source, citation = family.source, family.citation
+    return {
+        "name": name,
+        "kind": kind,
+        "summary": summary,
+        "source": source,
+        "citation": citation,
+        "parameters": {key: p.default for key, p in params.items() if key != name},
+        "help": {key: p.help for key, p in params.items() if key != name},
+    }
