@@ -8,4 +8,5 @@ COMMANDS: list[str] = [
     "run",
     "status",
     "methods",
+    "datasets",
 ]

@@ -299,7 +299,9 @@ def _common(native: int | None, intrinsic: int, classes: bool, density: bool) ->
             "density ratio exp(density) from the end to the start of the first coordinate",
         )
     default = "classes" if classes else "none"
-    params["labels"] = Param(default, (SCHEME,), "label scheme")
+    params["labels"] = Param(
+        default, (SCHEME,), "label scheme: 'none', 'classes', 'checker:AxB' or 'bands:N'"
+    )
     return params
 
 
