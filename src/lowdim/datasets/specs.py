@@ -15,6 +15,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from lowdim._validation import NONE, Instance, Interval, Options, Pattern, check_param
 from lowdim.datasets import bundled, files, manifolds  # noqa: F401  (they register families)
 from lowdim.datasets._base import Dataset, Param, get_family
@@ -49,6 +51,14 @@ _SELECT = {
     "features": Param(None, (NONE, _COLUMNS), "use only these columns"),
     "drop": Param([], (_COLUMNS,), "leave out these columns"),
 }
+# A random subset of the rows, taken after loading; left out of the normalised spec when not
+# given, so specs (and job ids) that do not use it are unchanged.
+_SUBSAMPLE = {
+    "subsample": Param(None, (NONE, Interval(int, 2, None)), "use a random subset of N rows"),
+    "subsample_seed": Param(
+        0, (Interval(int, 0, 2**32 - 1),), "seed of the subset (independent of `seed`)"
+    ),
+}
 
 # The keys of a `file` or `openml` spec; a `name` spec takes its family's parameters.
 SOURCE_PARAMS: dict[str, dict[str, Param]] = {
@@ -65,6 +75,7 @@ SOURCE_PARAMS: dict[str, dict[str, Param]] = {
         ),
         "seed": _SEED,
         **PREPROCESS_PARAMS,
+        **_SUBSAMPLE,
     },
     "openml": {
         "openml": Param(
@@ -163,7 +174,7 @@ def validate_spec(spec: dict, *, where: str = "") -> dict:
             except InputError as exc:
                 raise InputError(f"{_ordinal(where)}{exc}") from None
             out[key] = _normalised(spec[key], param)
-        elif key != "seed":
+        elif key != "seed" and key not in _SUBSAMPLE:
             default = param.default
             out[key] = list(default) if isinstance(default, list) else default
     if family is not None and family.check is not None:
@@ -199,7 +210,7 @@ def load(spec: dict) -> Dataset:
     params = validate_spec(spec)
     params.pop("label", None)
     if "file" in params:
-        return files.load_file(params)
+        return _subsample(files.load_file(params), params)
     if "openml" in params:
         return bundled.load_openml(params)
     family = get_family(params["name"])
@@ -211,6 +222,23 @@ def load(spec: dict) -> Dataset:
         )
         dataset = dataclasses.replace(dataset, X=X)
     return dataset
+
+
+def _subsample(dataset: Dataset, params: dict) -> Dataset:
+    """Keep ``params["subsample"]`` random rows (in file order), or all when there are fewer."""
+    size = params.get("subsample")
+    if size is None or size >= dataset.n_samples:
+        return dataset
+    rng = np.random.default_rng(params.get("subsample_seed", 0))
+    rows = np.sort(rng.choice(dataset.n_samples, size, replace=False))
+    meta = {**dataset.meta, "subsample_rows": size, "rows_in_file": dataset.n_samples}
+    return dataclasses.replace(
+        dataset,
+        X=np.ascontiguousarray(dataset.X[rows]),
+        labels=None if dataset.labels is None else dataset.labels[rows],
+        truth=None if dataset.truth is None else dataset.truth[rows],
+        meta=meta,
+    )
 
 
 def _preprocessing_asked(params: dict) -> bool:
