@@ -47,6 +47,7 @@ __all__ = [
     "Bandwidth",
     "resolve_bandwidth",
     "rbf_from_distances",
+    "laplacian_from_distances",
     "query_local_scales",
     "squared_distances",
     "manhattan_distances",
@@ -89,11 +90,13 @@ class Bandwidth:
         Per-point scales sigma_i for the ``local`` rules, else None.
     rule : str
         ``"value"`` for a number, else the rule with its K (``"median"``, ``"local:7"``,
-        ``"kernel_sum"``).
+        ``"kernel_sum"``); ``"gamma"`` when an estimator's ``gamma`` parameter set the scale.
     dimension : float or None
         For ``kernel_sum``: the intrinsic dimension estimated as 2 x the largest log-log slope.
     metric : str
         The distance the scales were measured in (``"euclidean"`` or ``"manhattan"``).
+    gamma_value : float or None
+        The ``gamma`` parameter the scale came from (rule ``"gamma"``), for messages.
     """
 
     sigma: float
@@ -101,6 +104,7 @@ class Bandwidth:
     rule: str = "value"
     dimension: float | None = None
     metric: str = "euclidean"
+    gamma_value: float | None = None
 
     @property
     def gamma(self) -> float:
@@ -404,27 +408,50 @@ def rbf_from_distances(
     ndarray or sparse matrix
         The weights, shaped like ``sq_dist``.
     """
-    if scipy.sparse.issparse(sq_dist):
-        coo = scipy.sparse.coo_matrix(sq_dist)
-        values = rbf_from_distances(
-            coo.data, bw, coo.row, coo.col, row_scales=row_scales, check_owner=check_owner
+    return _scaled_exp(sq_dist, bw, rows, cols, row_scales, check_owner, squared=True)
+
+
+def laplacian_from_distances(
+    dist,
+    bw: Bandwidth,
+    rows: np.ndarray | None = None,
+    cols: np.ndarray | None = None,
+    *,
+    row_scales: np.ndarray | None = None,
+    check_owner: str | None = None,
+):
+    """Laplacian-kernel weights exp(-d / sigma), or exp(-d / sqrt(sigma_i sigma_j)).
+
+    ``dist`` holds plain (not squared) distances, L1 for the Laplacian kernel as scikit-learn
+    defines it; the other arguments are those of :func:`rbf_from_distances`.
+    """
+    return _scaled_exp(dist, bw, rows, cols, row_scales, check_owner, squared=False)
+
+
+def _scaled_exp(values, bw, rows, cols, row_scales, check_owner, *, squared):
+    if scipy.sparse.issparse(values):
+        coo = scipy.sparse.coo_matrix(values)
+        data = _scaled_exp(
+            coo.data, bw, coo.row, coo.col, row_scales, check_owner, squared=squared
         )
-        return scipy.sparse.csr_matrix((values, (coo.row, coo.col)), shape=coo.shape)
-    sq_dist = np.asarray(sq_dist, dtype=np.float64)
-    dense = sq_dist.ndim == 2
+        return scipy.sparse.csr_matrix((data, (coo.row, coo.col)), shape=coo.shape)
+    values = np.asarray(values, dtype=np.float64)
+    dense = values.ndim == 2
     if dense:
-        rows = np.arange(sq_dist.shape[0]) if rows is None else np.asarray(rows)
-        cols = np.arange(sq_dist.shape[1]) if cols is None else np.asarray(cols)
+        rows = np.arange(values.shape[0]) if rows is None else np.asarray(rows)
+        cols = np.arange(values.shape[1]) if cols is None else np.asarray(cols)
     elif rows is None or cols is None:
         if bw.local is not None or check_owner is not None:
-            raise ValueError("1-D squared distances need `rows` and `cols` index arrays")
+            raise ValueError("1-D distances need `rows` and `cols` index arrays")
     if bw.local is None:
-        weights = np.exp(sq_dist * (-0.5 / bw.sigma**2))
+        scale = bw.sigma**2 if squared else bw.sigma
     else:
         left = bw.local[rows] if row_scales is None else np.asarray(row_scales)
         right = bw.local[cols]
         scale = np.multiply.outer(left, right) if dense else left * right
-        weights = np.exp(-sq_dist / (2.0 * scale))
+        if not squared:
+            scale = np.sqrt(scale)
+    weights = np.exp(values / (-2.0 * scale if squared else -scale))
     if check_owner is not None:
         _check_weights(weights, rows, cols, bw, check_owner)
     return weights
@@ -445,6 +472,13 @@ def _check_weights(
         linked = np.bincount(rows[other], minlength=present.size)
         isolated = int(np.sum((present > 0) & (linked == 0)))
         total = int(np.sum(present > 0))
+    if isolated and bw.rule == "gamma":
+        raise InputError(
+            f"the parameter `gamma` of `{owner}` is too large for this data: with gamma = "
+            f"{bw.gamma_value!r} the kernel underflows to 0 and leaves {isolated} of {total} "
+            "points with no weight on any other point; use a smaller gamma, or leave gamma "
+            "None and set bandwidth to a rule such as 'median'"
+        )
     if isolated:
         raise InputError(
             f"the parameter `bandwidth` of `{owner}` is too small for this data: with "
