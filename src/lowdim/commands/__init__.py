@@ -7,6 +7,8 @@ Add a command by writing ``lowdim/commands/<name>.py`` with ``HELP``, ``add_argu
 COMMANDS: list[str] = [
     "run",
     "status",
+    "compare",
+    "embed",
     "methods",
     "datasets",
 ]

@@ -1,0 +1,82 @@
+"""``lowdim compare FILE``: which method to use on one's own data, with the evidence.
+
+Runs the standard comparison (:mod:`lowdim.compare`), writes the full report to the results
+folder, and prints a ranked table and a recommendation worked out from the scores.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import textwrap
+
+from lowdim.compare import MAX_ROWS, plan_comparison, run_comparison, write_text
+
+HELP = "compare the built-in methods (and your plugins) on your own data file and recommend one"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", metavar="FILE", help="the data: CSV, TSV, Parquet, NPY or NPZ")
+    parser.add_argument("--labels", metavar="COL", help="a column of class labels, if any")
+    parser.add_argument(
+        "--drop", action="append", default=[], metavar="COL", help="a column to leave out"
+    )
+    parser.add_argument(
+        "--out", metavar="DIR", help="results folder (default: results/compare-<file stem>/)"
+    )
+    parser.add_argument(
+        "--jobs", "-j", type=int, default=1, metavar="N", help="parallel jobs (-1: every core)"
+    )
+    parser.add_argument(
+        "--quick",
+        action="store_true",
+        help="a smaller sweep: 2 seeds, one fixed bandwidth beside the rules, 5 and 10 neighbours",
+    )
+    parser.add_argument(
+        "--max-rows",
+        type=int,
+        default=MAX_ROWS,
+        metavar="N",
+        help=f"compare larger files on random subsamples of N rows ({MAX_ROWS})",
+    )
+    parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
+
+
+def _wrap(sentence: str) -> str:
+    return textwrap.fill(sentence, width=99, initial_indent="- ", subsequent_indent="  ")
+
+
+def run(args: argparse.Namespace) -> int:
+    plan = plan_comparison(
+        args.file,
+        labels=args.labels,
+        drop=args.drop,
+        plugins=args.plugin,
+        out_dir=args.out,
+        quick=args.quick,
+        max_rows=args.max_rows,
+    )
+    for note in plan.warnings:
+        print(f"lowdim: warning: {note}", file=sys.stderr)
+    suite = plan.suite["suite"]
+    shape = f"{plan.facts.n_samples} rows"
+    if plan.facts.subsample:
+        shape += f", compared on {len(plan.suite['datasets'])} random subsamples of "
+        shape += f"{plan.facts.subsample}"
+    print(
+        f"lowdim compare: {plan.file.name} ({shape}); {plan.n_settings} settings x "
+        f"{len(suite['seeds'])} seeds x {len(plan.suite['datasets'])} data; results in "
+        f"{plan.out_dir}",
+        file=sys.stderr,
+    )
+    outcome = run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
+    names = ", ".join(c.label for c in plan.criteria if c.label in outcome.table)
+    heading = f"Ranked by mean rank over {names} (mean ± sd over the repeats):"
+    parts = [heading, outcome.table, "", "Recommendation:"]
+    parts += [_wrap(s) for s in outcome.recommendation]
+    text = "\n".join(parts if outcome.table else parts[3:]) + "\n"
+    write_text(plan.out_dir / "recommendation.txt", text)
+    print(text, end="")
+    if outcome.report is not None:
+        print(f"\nreport: {outcome.report}")
+    return 0

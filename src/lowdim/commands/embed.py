@@ -1,0 +1,197 @@
+"""``lowdim embed``: one embedding of the user's file by one method, written as CSV or NPY.
+
+``--set key=value`` values are read as int, float, bool, None or string, then checked the way
+a suite's method table is: an unknown parameter suggests the closest name, each value is
+checked against the method's ``_param_specs``, and the method's own fit-time checks follow.
+The output is written to a temporary name in the same folder and renamed, so a failure at any
+step leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import re
+import sys
+import tempfile
+import warnings
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from lowdim.errors import InputError, suggestion
+
+HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
+
+OUTPUT_FORMATS = (".csv", ".npy")
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", metavar="FILE", help="the data: CSV, TSV, Parquet, NPY or NPZ")
+    parser.add_argument(
+        "--method", required=True, metavar="NAME", help="a method from `lowdim methods`"
+    )
+    parser.add_argument(
+        "--set",
+        action="append",
+        default=[],
+        metavar="KEY=VALUE",
+        dest="settings",
+        help="a parameter of the method, e.g. --set n_neighbors=15 (repeatable)",
+    )
+    parser.add_argument(
+        "--n-components", type=int, default=None, metavar="N", help="output dimensions (2)"
+    )
+    parser.add_argument(
+        "--labels", metavar="COL", help="a label column: left out of the data, kept in a CSV"
+    )
+    parser.add_argument(
+        "--drop", action="append", default=[], metavar="COL", help="a column to leave out"
+    )
+    parser.add_argument(
+        "--out", required=True, metavar="OUT", help="where to write: a .csv or .npy file"
+    )
+
+
+def parse_value(text: str) -> Any:
+    """Read a command-line value as int, float, bool, None or, failing those, a string."""
+    lowered = text.strip().lower()
+    if lowered in ("true", "false"):
+        return lowered == "true"
+    if lowered in ("none", "null"):
+        return None
+    if re.fullmatch(r"[+-]?\d+", lowered):
+        return int(lowered)
+    try:
+        return float(lowered)
+    except ValueError:
+        return text.strip()
+
+
+def parse_settings(items: list[str]) -> dict[str, Any]:
+    """``["n_neighbors=15", "weights=heat"]`` -> ``{"n_neighbors": 15, "weights": "heat"}``."""
+    out: dict[str, Any] = {}
+    for item in items:
+        key, sep, value = item.partition("=")
+        key = key.strip()
+        if not sep or not key:
+            raise InputError(f"--set {item!r} must look like key=value, e.g. --set n_neighbors=15")
+        if key in out:
+            raise InputError(f"--set gives `{key}` twice; keep one value")
+        out[key] = parse_value(value)
+    return out
+
+
+def configure_method(name: str, params: dict[str, Any]) -> Any:
+    """An unfitted estimator ``name`` with ``params``, each checked before any data is read.
+
+    ``random_state`` is fixed to 0 where the method has one and it was not given, so the
+    same command gives the same embedding.
+    """
+    from lowdim._validation import check_param
+    from lowdim.methods import get_method
+
+    cls = get_method(name)
+    defaults = cls().get_params(deep=False)
+    for key in params:
+        if key not in defaults:
+            raise InputError(
+                f"unknown parameter `{key}` of {name}{suggestion(key, defaults)}; its "
+                "parameters are " + ", ".join(defaults)
+            )
+    specs = getattr(cls, "_param_specs", {})
+    for key, value in params.items():
+        if key in specs:
+            check_param(cls.__name__, key, value, specs[key], {})
+    if "random_state" in defaults and "random_state" not in params:
+        params = {**params, "random_state": 0}
+    return cls(**params)
+
+
+def _check_output(path: Path) -> str:
+    suffix = path.suffix.lower()
+    if suffix not in OUTPUT_FORMATS:
+        raise InputError(
+            f"--out {str(path)!r} must end in .csv or .npy (the format follows the extension)"
+        )
+    if not path.parent.is_dir():
+        raise InputError(
+            f"--out {str(path)!r}: the folder {str(path.parent)!r} does not exist; create it first"
+        )
+    if path.is_dir():
+        raise InputError(f"--out {str(path)!r} is a folder; give a file name ending in {suffix}")
+    return suffix
+
+
+def _label_values(dataset: Any) -> np.ndarray | None:
+    labels = dataset.labels
+    if labels is None:
+        return None
+    classes = dataset.meta.get("classes")
+    if classes is not None:
+        return np.asarray(classes, dtype=object)[np.asarray(labels, dtype=int)]
+    return np.asarray(labels)
+
+
+def write_embedding(
+    path: Path, Y: np.ndarray, labels: np.ndarray | None = None, label_name: str | None = None
+) -> None:
+    """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) via a temporary name."""
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            if path.suffix.lower() == ".npy":
+                np.save(fh, Y)
+            else:
+                import pandas as pd
+
+                frame = pd.DataFrame(Y, columns=[f"dim{i + 1}" for i in range(Y.shape[1])])
+                if labels is not None:
+                    frame[label_name or "label"] = labels
+                frame.to_csv(fh, index=False, lineterminator="\n")
+        os.replace(tmp, path)
+    except BaseException:
+        os.unlink(tmp)
+        raise
+
+
+def _warn(caught: list[warnings.WarningMessage]) -> None:
+    for w in caught:
+        print(f"lowdim: warning: {' '.join(str(w.message).split())}", file=sys.stderr)
+
+
+def run(args: argparse.Namespace) -> int:
+    from lowdim import datasets
+
+    out = Path(args.out)
+    _check_output(out)
+    params = parse_settings(args.settings)
+    if args.n_components is not None:
+        if params.get("n_components", args.n_components) != args.n_components:
+            raise InputError(
+                "--n-components and --set n_components disagree; give the number once"
+            )
+        params["n_components"] = args.n_components
+    estimator = configure_method(args.method, params)
+    spec: dict[str, Any] = {"file": args.file}
+    if args.labels:
+        spec["labels"] = args.labels
+    if args.drop:
+        spec["drop"] = list(args.drop)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        dataset = datasets.load(spec)
+        Y = np.asarray(estimator.fit_transform(dataset.X), dtype=np.float64)
+    _warn(caught)
+    if Y.ndim != 2 or Y.shape[0] != dataset.n_samples or not np.isfinite(Y).all():
+        raise InputError(
+            f"the method {args.method} returned an embedding of shape {Y.shape} with "
+            f"{int(np.size(Y) - np.isfinite(Y).sum())} non-finite values for "
+            f"{dataset.n_samples} rows; try other parameters"
+        )
+    write_embedding(out, Y, _label_values(dataset), args.labels)
+    print(
+        f"wrote the {Y.shape[0]} x {Y.shape[1]} embedding of {args.file} by {args.method} to {out}"
+    )
+    return 0
