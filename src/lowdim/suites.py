@@ -93,7 +93,10 @@ class Job:
     @property
     def dataset_target(self) -> str:
         """The registry name of the dataset, or its file path."""
-        return str(self.dataset_spec.get("name") or self.dataset_spec.get("file"))
+        spec = self.dataset_spec
+        if "openml" in spec:
+            return f"openml:{spec['openml']}"
+        return str(spec.get("name") or spec.get("file"))
 
 
 @dataclass(frozen=True)
@@ -371,12 +374,12 @@ def _grid(table: dict, where: str) -> tuple[dict, list[dict]]:
             raise InputError(
                 f"{where}: `grid.{key}` must be a non-empty list of values, got {values!r}"
             )
+        if key in ("name", "import", "label", "file", "seed"):
+            raise InputError(f"{where}: `{key}` cannot be swept; write one table for each value")
         if key in fixed:
             raise InputError(
                 f"{where}: `{key}` is set both as a fixed value and in `grid.{key}`; keep one"
             )
-        if key in ("name", "import", "label", "file", "seed"):
-            raise InputError(f"{where}: `{key}` cannot be swept; write one table for each value")
     keys = list(grid)
     points = [dict(zip(keys, combo, strict=True)) for combo in itertools.product(*grid.values())]
     return fixed, points
@@ -434,7 +437,7 @@ def _dataset_entries(table: dict, where: str, base: Path) -> list[Entry]:
                 for k, v in raw.items()
                 if k not in ("name", "seed") and (k in point or defaults.get(k, object()) != v)
             }
-            name = str(spec.get("name"))
+            name = str(spec["name"]) if "name" in spec else f"openml:{spec.get('openml')}"
             id_spec = dict(spec)
         if label is None:
             text = _label(name, shown)
@@ -479,7 +482,7 @@ def _method_entries(table: dict, where: str) -> list[Entry]:
         raise InputError(f"{where}: `{key}`: {exc}") from None
     if not isinstance(cls, type) or not hasattr(cls, "fit"):
         raise InputError(
-            f"{where}: `import = {target!r}` is not an estimator class with fit / fit_transform"
+            f"{where}: `{key} = {target!r}` is not an estimator class with fit / fit_transform"
         )
     try:
         defaults = cls().get_params(deep=False)
