@@ -20,6 +20,7 @@ import scipy.sparse.csgraph
 from sklearn.neighbors import NearestNeighbors
 
 from lowdim.errors import InputError
+from lowdim.methods._kernels import DEFAULT_LOCAL_K, Bandwidth
 
 __all__ = [
     "GRAPHS",
@@ -30,6 +31,11 @@ __all__ = [
     "knn_distance_graph",
     "epsilon_distance_graph",
     "edge_rows",
+    "query_distance_graph",
+    "default_neighbors",
+    "local_rule_for",
+    "log_weights",
+    "row_average",
     "symmetrize",
     "components",
     "disconnected_policy",
@@ -192,3 +198,135 @@ def laplacian(
     L = scipy.sparse.csr_matrix(L)
     L.sort_indices()
     return L, d, null / np.linalg.norm(null)
+
+
+def _coinciding(index: NearestNeighbors, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Nearest training point of each row of ``X`` and whether it lies at distance 0."""
+    dist, ind = index.kneighbors(X, n_neighbors=1, return_distance=True)
+    return ind[:, 0], dist[:, 0] == 0.0
+
+
+def query_distance_graph(
+    graph: DistanceGraph,
+    X: np.ndarray,
+    kind: str,
+    *,
+    include_self: bool = False,
+    fallback_neighbors: int = 1,
+) -> scipy.sparse.csr_matrix:
+    """Distances from new points ``X`` to the training points, under the training graph's rule.
+
+    A new point that coincides with a training point (distance 0) is treated as that point:
+    the match is dropped (``include_self=False``, graphs without self loops) or kept as an
+    edge of distance 0 (``include_self=True``, kernels with k(x, x) = 1), and its other edges
+    are those of the training point, so a training point passed again gets exactly its row of
+    the training graph. The rules, with r_j a point's distance to its k-th neighbour:
+
+    - ``"knn"`` (union): every j with d(x, x_j) <= max(r_x, r_j);
+    - ``"mutual_knn"`` (intersection): every j among x's k nearest with d(x, x_j) <= r_j;
+    - ``"epsilon"``: every j with d(x, x_j) <= radius.
+
+    A new point left without any edge (possible for the mutual and epsilon rules) is joined to
+    its ``fallback_neighbors`` nearest training points instead.
+    """
+    index, radii = graph.index, graph.radii
+    m, n = X.shape[0], graph.distances.shape[0]
+    if kind in ("knn", "mutual_knn"):
+        k = int(np.diff(graph.distances.indptr[:2])[0])
+        dist, ind = index.kneighbors(X, n_neighbors=min(k + 1, n), return_distance=True)
+        nearest, same = ind[:, 0], dist[:, 0] == 0.0
+        # the coinciding training point does not count among the k neighbours
+        take = np.where(same[:, None], np.arange(1, k + 1), np.arange(k))
+        dist = np.take_along_axis(dist, take, axis=1)
+        ind = np.take_along_axis(ind, take, axis=1)
+        if kind == "mutual_knn":
+            keep = dist <= radii[ind]
+            rows = np.repeat(np.arange(m), k).reshape(m, k)[keep]
+            cols, vals = ind[keep], dist[keep]
+        else:
+            r_query = dist[:, -1]
+            reach = float(max(np.max(r_query, initial=0.0), np.max(radii, initial=0.0)))
+            near_d, near_i = index.radius_neighbors(X, radius=reach, return_distance=True)
+            counts = np.array([len(a) for a in near_i])
+            rows = np.repeat(np.arange(m), counts)
+            cols = np.concatenate(near_i) if m else np.zeros(0, dtype=np.intp)
+            vals = np.concatenate(near_d) if m else np.zeros(0)
+            keep = vals <= np.maximum(r_query[rows], radii[cols])
+            rows, cols, vals = rows[keep], cols[keep], vals[keep]
+    elif kind == "epsilon":
+        nearest, same = _coinciding(index, X)
+        near_d, near_i = index.radius_neighbors(X, radius=float(radii[0]), return_distance=True)
+        counts = np.array([len(a) for a in near_i])
+        rows = np.repeat(np.arange(m), counts)
+        cols = np.concatenate(near_i) if m else np.zeros(0, dtype=np.intp)
+        vals = np.concatenate(near_d) if m else np.zeros(0)
+    else:
+        raise ValueError(f"`kind` must be one of {GRAPHS}, got {kind!r}")
+    is_match = same[rows] & (cols == nearest[rows])
+    rows, cols, vals = rows[~is_match], cols[~is_match], vals[~is_match]
+    if include_self:
+        rows = np.concatenate([rows, np.flatnonzero(same)])
+        cols = np.concatenate([cols, nearest[same]])
+        vals = np.concatenate([vals, np.zeros(int(same.sum()))])
+    lonely = np.setdiff1d(np.arange(m), rows)
+    if lonely.size:
+        dist, ind = index.kneighbors(
+            X[lonely], n_neighbors=min(fallback_neighbors, n), return_distance=True
+        )
+        rows = np.concatenate([rows, np.repeat(lonely, ind.shape[1])])
+        cols = np.concatenate([cols, ind.ravel()])
+        vals = np.concatenate([vals, dist.ravel()])
+    order = np.lexsort((cols, rows))
+    rows, cols, vals = rows[order], cols[order], vals[order]
+    indptr = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=m))])
+    return scipy.sparse.csr_matrix((vals, cols, indptr), shape=(m, n))
+
+
+# ---------------------------------------------------------------------------------------
+# shared by the graph methods: defaults for small data and the Nyström averages
+
+# Neighbours when `n_neighbors` is None, capped at n_samples - 1 for small data.
+DEFAULT_NEIGHBORS = 10
+
+
+def default_neighbors(n_neighbors: int | None, n_samples: int) -> int:
+    """The number of neighbours used: the parameter, or min(10, n_samples - 1) for None."""
+    return min(DEFAULT_NEIGHBORS, n_samples - 1) if n_neighbors is None else int(n_neighbors)
+
+
+def local_rule_for(bandwidth: float | str, n_samples: int) -> float | str:
+    """``"local"`` means ``local:7``, or ``local:(n_samples - 1)`` with fewer than 8 points."""
+    if isinstance(bandwidth, str) and bandwidth.lower() == "local":
+        return f"local:{min(DEFAULT_LOCAL_K, n_samples - 1)}"
+    return bandwidth
+
+
+def log_weights(
+    sq_dist: np.ndarray,
+    bw: Bandwidth,
+    cols: np.ndarray,
+    row_scales: np.ndarray | None,
+) -> np.ndarray:
+    """Logarithm of the RBF weights of the edges ending in training points ``cols``."""
+    if bw.local is None:
+        return sq_dist * (-0.5 / bw.sigma**2)
+    return -sq_dist / (2.0 * row_scales * bw.local[cols])
+
+
+def row_average(
+    D: scipy.sparse.csr_matrix, logw: np.ndarray, values: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Weighted row averages of ``values`` over the edges of ``D``, and each row's weight sum.
+
+    The average subtracts each row's largest log-weight first, so it stays finite when every
+    weight of a far-away point underflows; the weight sum is the plain one (it may be 0).
+    """
+    rows = edge_rows(D)
+    m = D.shape[0]
+    top = np.full(m, -np.inf)
+    np.maximum.at(top, rows, logw)
+    relative = np.exp(logw - top[rows])
+    R = scipy.sparse.csr_matrix((relative, D.indices, D.indptr), shape=D.shape)
+    average = (R @ values) / np.asarray(R.sum(axis=1))
+    total = np.bincount(rows, weights=np.exp(logw), minlength=m)
+    return average, total

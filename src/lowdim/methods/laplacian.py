@@ -1,0 +1,360 @@
+"""Laplacian eigenmaps (Belkin & Niyogi 2003) on a sparse neighbour graph."""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse
+from sklearn.base import BaseEstimator, TransformerMixin
+from sklearn.utils import check_random_state
+from sklearn.utils.validation import check_is_fitted
+
+from lowdim._validation import (
+    NONE,
+    RANDOM_STATE,
+    Interval,
+    Options,
+    check_params,
+    validate_input,
+)
+from lowdim.errors import InputError
+from lowdim.methods._eigen import LAPLACIAN_SOLVERS, fix_signs, smallest_laplacian_eigenpairs
+from lowdim.methods._graphs import (
+    GRAPHS,
+    NORMALIZATIONS,
+    ON_DISCONNECTED,
+    DistanceGraph,
+    default_neighbors,
+    disconnected_policy,
+    edge_rows,
+    epsilon_distance_graph,
+    knn_distance_graph,
+    laplacian,
+    local_rule_for,
+    log_weights,
+    query_distance_graph,
+    row_average,
+    symmetrize,
+)
+from lowdim.methods._kernels import (
+    BANDWIDTH_SPECS,
+    query_local_scales,
+    rbf_from_distances,
+    resolve_bandwidth,
+)
+
+__all__ = ["LaplacianEigenmaps"]
+
+
+class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
+    """Laplacian eigenmaps: the low eigenvectors of a neighbour graph's Laplacian.
+
+    A sparse neighbour graph joins each point to its neighbours, with heat-kernel or unit
+    weights W; the embedding solves the generalized problem (D - W) f = lambda D f (or one of
+    its relatives, see ``normalization``), drops the constant solution and keeps the next
+    ``n_components`` (Belkin & Niyogi 2003).
+
+    Parameters
+    ----------
+    n_components : int, default=2
+        Dimension of the embedding, in [1, n_samples - 1].
+    graph : {"knn", "mutual_knn", "epsilon"}, default="knn"
+        ``"knn"`` joins i and j when either is among the other's ``n_neighbors`` nearest;
+        ``"mutual_knn"`` when both are; ``"epsilon"`` when they are closer than ``radius``.
+    n_neighbors : int or None, default=None
+        Neighbours per point, in [1, n_samples - 1]; None means min(10, n_samples - 1). For
+        the epsilon graph it only serves new points that have no training point within
+        ``radius`` (they are joined to that many nearest training points).
+    radius : float or None, default=None
+        The epsilon graph's radius; required for ``graph="epsilon"``, ignored otherwise.
+    weights : {"heat", "binary"}, default="heat"
+        Heat kernel weights exp(-d^2 / (2 sigma^2)) (Belkin & Niyogi's exp(-d^2 / t) with
+        t = 2 sigma^2), or 1 on every edge.
+    bandwidth : float or str, default="local"
+        The heat kernel's sigma: a positive number, ``"median"``, ``"local"`` / ``"local:K"``
+        (per-point scales from the K-th neighbour distance, read from the graph's kNN
+        distances when K <= n_neighbors; ``"local"`` is K = 7, or n_samples - 1 for fewer than
+        8 points) or ``"kernel_sum"``. Unused for binary weights.
+    normalization : {"random_walk", "symmetric", "unnormalized"}, default="random_walk"
+        ``"random_walk"``: (D - W) f = lambda D f, solved as the symmetric normalized
+        Laplacian's eigenvectors divided by sqrt(degree); ``"symmetric"``: the eigenvectors of
+        I - D^-1/2 W D^-1/2 themselves; ``"unnormalized"``: those of D - W.
+    on_disconnected : {"warn", "raise", "largest"}, default="warn"
+        What a graph with several connected components does. ``"warn"`` embeds it anyway (the
+        leading coordinates then only label components) with a warning naming the component
+        sizes; ``"raise"`` raises an InputError; ``"largest"`` fits on the largest component
+        only: its points are embedded as usual, every other point (listed in ``excluded_``)
+        gets the out-of-sample extension from its nearest points of that component, so
+        ``embedding_`` keeps one finite row per input point.
+    eigen_solver : {"auto", "amg", "arpack", "dense"}, default="auto"
+        Where the solver chain starts (AMG-preconditioned LOBPCG, then shift-invert ARPACK,
+        then dense for small n); ``"auto"`` is dense up to 600 points and AMG above.
+    random_state : int, RandomState or None, default=None
+        Seeds the eigen-solver's start vectors and the bandwidth rules' samples.
+
+    Attributes
+    ----------
+    embedding_ : ndarray of shape (n_samples, n_components)
+        The training points' coordinates, signs fixed (largest-magnitude entry positive).
+    eigenvalues_ : ndarray of shape (n_components,)
+        The Laplacian eigenvalues of the kept coordinates, ascending (the 0 dropped).
+    n_components_ : int
+    n_neighbors_ : int
+        The number of neighbours used.
+    bandwidth_ : float or None
+        The heat kernel's sigma (the median of the per-point scales for a local rule); None
+        for binary weights.
+    bandwidth_rule_ : str or None
+        ``"value"`` for a number, else the rule used (e.g. ``"local:7"``).
+    solver_ : str
+        The eigen-solver that produced the result: ``"amg"``, ``"arpack"`` or ``"dense"``.
+    n_connected_components_ : int
+        Components of the graph on all training points.
+    excluded_ : ndarray of int
+        Indices of the points outside the embedded component (``on_disconnected="largest"``);
+        empty otherwise.
+    n_features_in_ : int
+
+    See Also
+    --------
+    lowdim.methods.DiffusionMaps : the same graph idea with a density normalization and a
+        diffusion time.
+
+    Notes
+    -----
+    Everything is sparse: the graph has O(n k) entries and the solver never forms an n x n
+    matrix (the dense solver is used only for n <= 600, or as the last resort up to 6000).
+    ``transform`` is the Nyström extension of the eigen-equation: a new point x gets edges to
+    the training points under the same graph rule, weights w_j, and
+
+    - random_walk: f(x) = sum_j w_j f_j / ((1 - lambda) sum_j w_j);
+    - symmetric: v(x) = sum_j w_j v_j / sqrt(d_j) / ((1 - lambda) sqrt(d_x));
+    - unnormalized: f(x) = sum_j w_j f_j / (d_x - lambda), and the plain weighted average
+      where d_x <= lambda (a point too weakly joined for the formula);
+
+    which reproduce the training coordinates exactly on the training points.
+
+    References
+    ----------
+    .. [1] M. Belkin and P. Niyogi, "Laplacian eigenmaps for dimensionality reduction and
+       data representation", Neural Computation 15 (2003), 1373-1396.
+       https://doi.org/10.1162/089976603321780317
+    .. [2] U. von Luxburg, "A tutorial on spectral clustering", Statistics and Computing 17
+       (2007), 395-416. https://doi.org/10.1007/s11222-007-9033-z
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from lowdim.methods import LaplacianEigenmaps
+    >>> t = np.linspace(0, 3 * np.pi, 300)
+    >>> X = np.c_[t * np.cos(t), t * np.sin(t), np.random.default_rng(0).uniform(size=300)]
+    >>> LaplacianEigenmaps(n_components=2, random_state=0).fit_transform(X).shape
+    (300, 2)
+    """
+
+    _param_specs = {
+        "n_components": [Interval(int, 1, "n_samples - 1")],
+        "graph": [Options(GRAPHS)],
+        "n_neighbors": [NONE, Interval(int, 1, "n_samples - 1")],
+        "radius": [NONE, Interval(float, 0, None, closed="neither")],
+        "weights": [Options(("heat", "binary"))],
+        "bandwidth": BANDWIDTH_SPECS,
+        "normalization": [Options(NORMALIZATIONS)],
+        "on_disconnected": [Options(ON_DISCONNECTED)],
+        "eigen_solver": [Options(LAPLACIAN_SOLVERS)],
+        "random_state": RANDOM_STATE,
+    }
+    _reference = "Belkin & Niyogi, Neural Computation 15, 2003"
+
+    def __init__(
+        self,
+        *,
+        n_components: int = 2,
+        graph: str = "knn",
+        n_neighbors: int | None = None,
+        radius: float | None = None,
+        weights: str = "heat",
+        bandwidth: float | str = "local",
+        normalization: str = "random_walk",
+        on_disconnected: str = "warn",
+        eigen_solver: str = "auto",
+        random_state=None,
+    ):
+        self.n_components = n_components
+        self.graph = graph
+        self.n_neighbors = n_neighbors
+        self.radius = radius
+        self.weights = weights
+        self.bandwidth = bandwidth
+        self.normalization = normalization
+        self.on_disconnected = on_disconnected
+        self.eigen_solver = eigen_solver
+        self.random_state = random_state
+
+    # -- fitting -------------------------------------------------------------------------
+
+    def _graph_kind(self) -> str:
+        return self.graph.lower()
+
+    def _build(self, X: np.ndarray, rng: np.random.RandomState):
+        """Distance graph, bandwidth and symmetric weight matrix of the points ``X``."""
+        owner = type(self).__name__
+        n = X.shape[0]
+        kind = self._graph_kind()
+        if kind == "epsilon":
+            graph = epsilon_distance_graph(X, float(self.radius))
+            knn = None
+        else:
+            graph = knn_distance_graph(X, min(self.n_neighbors_, n - 1))
+            k = graph.distances.indptr[1]
+            knn = graph.distances.data.reshape(n, k)
+        D = graph.distances
+        rows = edge_rows(D)
+        if self.weights.lower() == "binary":
+            bw = None
+            values = np.ones(D.nnz)
+        else:
+            bw = resolve_bandwidth(
+                local_rule_for(self.bandwidth, n),
+                X,
+                random_state=rng,
+                knn_distances=knn,
+                owner=owner,
+            )
+            values = rbf_from_distances(D.data**2, bw, rows, D.indices, check_owner=owner)
+        W = scipy.sparse.csr_matrix((values, D.indices, D.indptr), shape=D.shape)
+        W = symmetrize(W, "intersection" if kind == "mutual_knn" else "union")
+        return graph, bw, W
+
+    def _check_isolated(self, W) -> None:
+        lonely = int(np.sum(np.diff(W.indptr) == 0))
+        if lonely and self.on_disconnected != "largest":
+            what = (
+                f"within radius={self.radius!r}"
+                if self._graph_kind() == "epsilon"
+                else f"among their n_neighbors={self.n_neighbors_} mutual neighbours"
+            )
+            raise InputError(
+                f"{lonely} of {W.shape[0]} points have no neighbour {what} in the graph of "
+                f"`{type(self).__name__}`, so they cannot be embedded; raise the parameter, "
+                "or set on_disconnected='largest' to embed the largest component"
+            )
+
+    def fit(self, X, y=None):
+        """Build the graph on ``X`` and compute its Laplacian eigenmap.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+        y : ignored
+
+        Returns
+        -------
+        self
+        """
+        X = validate_input(self, X, reset=True)
+        n, p = X.shape
+        check_params(self, n_samples=n, n_features=p)
+        owner = type(self).__name__
+        if self._graph_kind() == "epsilon" and self.radius is None:
+            raise InputError(
+                f"the parameter `radius` of `{owner}` must be a positive number when "
+                "graph='epsilon', got None; give the radius of the neighbourhoods"
+            )
+        rng = check_random_state(self.random_state)
+        self.n_neighbors_ = default_neighbors(self.n_neighbors, n)
+        graph, bw, W = self._build(X, rng)
+        self._check_isolated(W)
+        policy = self.on_disconnected.lower()
+        hint = "raise `radius`" if self._graph_kind() == "epsilon" else "raise `n_neighbors`"
+        count, keep = disconnected_policy(W, policy, owner, hint=hint)
+        self.n_connected_components_ = count
+        self.excluded_ = np.zeros(0, dtype=np.intp)
+        X_fit = X
+        if keep is not None:
+            self.excluded_ = np.setdiff1d(np.arange(n), keep)
+            X_fit = X[keep]
+            if self.n_components + 1 > X_fit.shape[0]:
+                raise InputError(
+                    f"the largest component of the graph of `{owner}` has {X_fit.shape[0]} "
+                    f"points, too few for n_components={self.n_components}; raise "
+                    "`n_neighbors` or lower `n_components`"
+                )
+            graph, bw, W = self._build(X_fit, rng)
+        self._solve(X_fit, graph, bw, W, rng)
+        if keep is not None:
+            full = np.empty((n, self.n_components_))
+            full[keep] = self.embedding_
+            full[self.excluded_] = self._extend(X[self.excluded_])
+            self.embedding_ = full
+        return self
+
+    def _solve(self, X_fit, graph: DistanceGraph, bw, W, rng) -> None:
+        normalization = self.normalization.lower()
+        L, degree, null = laplacian(W, normalization)
+        m = self.n_components
+        result = smallest_laplacian_eigenpairs(
+            L, m + 1, null_vector=null, solver=self.eigen_solver.lower(), random_state=rng
+        )
+        values, vectors = result.values[1:], result.vectors[:, 1:]
+        if normalization == "random_walk":
+            vectors = vectors / np.sqrt(degree)[:, None]
+        self.embedding_ = fix_signs(np.ascontiguousarray(vectors))
+        self.eigenvalues_ = values
+        self.n_components_ = m
+        self.solver_ = result.solver
+        self.bandwidth_ = None if bw is None else bw.sigma
+        self.bandwidth_rule_ = None if bw is None else bw.rule
+        self._bw = bw
+        self._graph = graph
+        self._X_fit = X_fit
+        self._degree = degree
+        # Extension basis: the quantity averaged over a new point's neighbours.
+        if normalization == "symmetric":
+            self._basis = self.embedding_ / np.sqrt(degree)[:, None]
+        else:
+            self._basis = self.embedding_
+
+    # -- out of sample -------------------------------------------------------------------
+
+    def _extend(self, X: np.ndarray) -> np.ndarray:
+        D = query_distance_graph(
+            self._graph, X, self._graph_kind(), fallback_neighbors=self.n_neighbors_
+        )
+        bw = self._bw
+        if bw is None:
+            logw = np.zeros(D.nnz)
+        else:
+            scales = None
+            if bw.local is not None:
+                scales = query_local_scales(self._X_fit, X, bw)[edge_rows(D)]
+            logw = log_weights(D.data**2, bw, D.indices, scales)
+        average, total = row_average(D, logw, self._basis)
+        values = self.eigenvalues_
+        normalization = self.normalization.lower()
+        if normalization == "random_walk":
+            return average / (1.0 - values)
+        if normalization == "symmetric":
+            return average * np.sqrt(total)[:, None] / (1.0 - values)
+        total = total[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            exact = average * total / (total - values)
+        return np.where(total > values, exact, average)
+
+    def transform(self, X) -> np.ndarray:
+        """Place new points by the Nyström extension (exact on the training points).
+
+        Parameters
+        ----------
+        X : array-like of shape (n_queries, n_features)
+
+        Returns
+        -------
+        ndarray of shape (n_queries, n_components)
+        """
+        check_is_fitted(self, "embedding_")
+        X = validate_input(self, X, reset=False, min_samples=1)
+        return self._extend(X)
+
+    def fit_transform(self, X, y=None) -> np.ndarray:
+        """Fit on ``X`` and return ``embedding_``."""
+        return self.fit(X).embedding_
