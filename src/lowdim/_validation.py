@@ -193,7 +193,8 @@ def check_data(X: Any, owner: str, *, min_samples: int = 2, name: str = "X") -> 
             f"`{owner}` does not accept sparse input for `{name}`; pass a dense array "
             "(for example X.toarray())"
         )
-    if np.iscomplexobj(X):
+    # array-likes go through __array__ first: some refuse numpy's array-function protocol
+    if np.iscomplexobj(np.asarray(X) if hasattr(X, "__array__") else X):
         raise InputError(f"Complex data not supported: `{name}` given to `{owner}` is complex")
     try:
         arr = np.asarray(X, dtype=np.float64)
@@ -202,7 +203,7 @@ def check_data(X: Any, owner: str, *, min_samples: int = 2, name: str = "X") -> 
     if arr.ndim != 2:
         raise InputError(
             f"`{name}` given to `{owner}` must be a 2-D array (samples x features), "
-            f"got {arr.ndim}-D with shape {arr.shape}; reshape 1-D data with "
+            f"got {arr.ndim}-D with shape {arr.shape}. Reshape your data with "
             "X.reshape(-1, 1) for one feature or X.reshape(1, -1) for one sample"
         )
     n = arr.shape[0]
@@ -211,7 +212,10 @@ def check_data(X: Any, owner: str, *, min_samples: int = 2, name: str = "X") -> 
             f"`{owner}` needs at least {min_samples} samples in `{name}`, got n_samples={n}"
         )
     if arr.shape[1] < 1:
-        raise InputError(f"`{name}` given to `{owner}` has no features (shape {arr.shape})")
+        raise InputError(
+            f"`{name}` given to `{owner}` has no features: 0 feature(s) "
+            f"(shape=({arr.shape[0]}, 0)) while a minimum of 1 is required."
+        )
     if not np.isfinite(arr).all():
         bad = np.argwhere(~np.isfinite(arr))
         row, col = bad[0]
