@@ -174,6 +174,8 @@ def run(args: argparse.Namespace) -> int:
             )
         params["n_components"] = args.n_components
     estimator = configure_method(args.method, params)
+    if not Path(args.file).exists():
+        raise InputError(f"data file {args.file!r} not found; give the path to a data file")
     spec: dict[str, Any] = {"file": args.file}
     if args.labels:
         spec["labels"] = args.labels
