@@ -163,7 +163,7 @@ def test_text_in_a_numeric_column_names_column_and_row(tmp_path):
     with pytest.raises(InputError) as info:
         load({"file": path})
     message = str(info.value)
-    assert "column 'width' (column 2) holds text" in message
+    assert "column 'width' holds text" in message
     assert "'deep' at data row 3 (counting from 1, header not counted)" in message
 
 

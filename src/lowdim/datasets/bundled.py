@@ -130,7 +130,7 @@ def _download(ident: int | str, cache: Path, where: str) -> None:
     by = {"data_id": ident} if isinstance(ident, int) else {"name": ident}
     try:
         bunch = sklearn.datasets.fetch_openml(
-            **by, data_home=str(cache / "sklearn"), as_frame=True, parser="auto"
+            **by, data_home=str(cache / "sklearn"), as_frame=True, parser="auto", n_retries=2
         )
     except OSError as exc:  # URLError and socket errors are OSErrors
         raise InputError(

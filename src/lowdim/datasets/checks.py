@@ -50,7 +50,7 @@ def check_row_count(n_rows: int, where: str, *, header: bool = False) -> None:
 def numeric_matrix(frame: pd.DataFrame, where: str) -> np.ndarray:
     """The frame's values as float64, or an error naming the first column holding text."""
     converted = {}
-    for position, column in enumerate(frame.columns):
+    for column in frame.columns:
         values = frame[column]
         if pd.api.types.is_numeric_dtype(values) or pd.api.types.is_bool_dtype(values):
             continue
@@ -59,10 +59,9 @@ def numeric_matrix(frame: pd.DataFrame, where: str) -> np.ndarray:
         if bad.any():
             row = int(np.argmax(bad))
             raise InputError(
-                f"{where}: column {column!r} (column {position + 1}) holds text where numbers "
-                f"are expected, first {values.iloc[row]!r} at data row {row + 1} (counting "
-                "from 1, header not counted); fix the value, or pass the column as `labels` "
-                "or list it in `drop`"
+                f"{where}: column {column!r} holds text where numbers are expected, first "
+                f"{values.iloc[row]!r} at data row {row + 1} (counting from 1, header not "
+                "counted); fix the value, or pass the column as `labels` or list it in `drop`"
             )
         converted[column] = coerced
     if converted:
