@@ -52,7 +52,7 @@ def test_top_eigenpairs_match_numpy_eigh(solver):
 def test_path_graph_spectrum_is_known(solver):
     # Exact fact (see scipy.sparse.csgraph.laplacian's tests): the path graph with n nodes has
     # Laplacian eigenvalues 2 - 2 cos(pi m / n) and eigenvectors cos(pi m (i + 1/2) / n).
-    n = 700
+    n = 400
     L = _path_laplacian(n)
     result = smallest_laplacian_eigenpairs(
         L, 4, null_vector=np.ones(n), solver=solver, random_state=0, tol=1e-9
@@ -75,7 +75,7 @@ def test_cycle_graph_spectrum_n8():
     assert_allclose(result.values, [0, 0.5858, 0.5858, 2, 2, 3.4142, 3.4142, 4], atol=1e-4)
 
 
-def _geometric_laplacian(n=1500, k=8, seed=0):
+def _geometric_laplacian(n=800, k=8, seed=0):
     """Normalized Laplacian of a kNN graph on a rectangle: a non-degenerate low spectrum."""
     from sklearn.neighbors import kneighbors_graph
 
@@ -106,7 +106,7 @@ def test_amg_arpack_and_dense_agree_on_the_same_laplacian():
 
 
 def test_amg_is_repeatable_and_leaves_the_global_generator_alone():
-    L, null = _geometric_laplacian(n=900)
+    L, null = _geometric_laplacian(n=700)
     np.random.seed(123)
     before = np.random.get_state()[1].copy()
     first = smallest_laplacian_eigenpairs(L, 4, null_vector=null, solver="amg", random_state=7)
@@ -117,7 +117,7 @@ def test_amg_is_repeatable_and_leaves_the_global_generator_alone():
 
 
 def test_fallback_to_arpack_warns_and_says_why():
-    L, null = _geometric_laplacian(n=900)
+    L, null = _geometric_laplacian(n=700)
     with pytest.warns(SolverFallbackWarning, match="did not converge in 1 iterations"):
         result = smallest_laplacian_eigenpairs(
             L, 4, null_vector=null, solver="amg", random_state=0, tol=1e-14, maxiter=1

@@ -40,6 +40,23 @@ def test_matches_scikit_learn_spectral_embedding_on_a_swiss_roll(roll):
     assert np.all(canonical_correlations(ours, theirs) > 0.99)
 
 
+def test_random_walk_solves_the_generalized_problem_of_belkin_and_niyogi(roll):
+    # Belkin & Niyogi (2003): (D - W) f = lambda D f on the symmetrised kNN graph with heat
+    # weights, solved here naively with scipy.linalg.eigh(L, D) (D-normalized vectors).
+    import scipy.linalg
+    from sklearn.neighbors import kneighbors_graph
+
+    X, sigma = roll[:300], 2.0
+    A = kneighbors_graph(X, 8, mode="distance").toarray()
+    W = np.where(A > 0, np.exp(-(A**2) / (2 * sigma**2)), 0.0)
+    W = np.maximum(W, W.T)
+    D = np.diag(W.sum(axis=1))
+    values, vectors = scipy.linalg.eigh(D - W, D, subset_by_index=(0, 2))
+    model = LaplacianEigenmaps(n_neighbors=8, bandwidth=sigma).fit(X)
+    assert_allclose(model.eigenvalues_, values[1:], rtol=1e-9, atol=1e-12)
+    assert_allclose_up_to_sign(model.embedding_, vectors[:, 1:], atol=1e-8)
+
+
 @pytest.mark.parametrize("normalization", ["random_walk", "symmetric", "unnormalized"])
 def test_circle_gives_the_first_fourier_pair(normalization):
     # Exact fact: equally spaced points on a circle make a circulant graph whose first
