@@ -34,6 +34,7 @@ from lowdim.datasets._base import Dataset, Family, Param, register
 from lowdim.datasets.labels import SCHEME, scheme_problem
 from lowdim.datasets.labels import make_labels as _make_labels
 from lowdim.datasets.lift import lift, warp_uniform
+from lowdim.datasets.preprocess import PREPROCESS_PARAMS
 from lowdim.errors import InputError
 
 __all__ = [
@@ -320,7 +321,7 @@ def _add(
     check: Callable[[dict], str | None] | None = None,
 ) -> None:
     own = own or {}
-    params = {**_common(native, intrinsic, classes, density), **own}
+    params = {**_common(native, intrinsic, classes, density), **own, **PREPROCESS_PARAMS}
     keys = tuple(own) + (("density",) if density else ())
 
     def check_all(spec: dict, where: str) -> None:

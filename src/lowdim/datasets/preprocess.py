@@ -37,8 +37,8 @@ def preprocess(
             row, col = (int(i) for i in np.argwhere(too_small)[0])
             raise InputError(
                 f"{where}: `log1p = true` needs every value above -1, but column "
-                f"{columns[col]!r} holds {X[row, col]!r} at data row {row + 1} (counting from "
-                "1); drop `log1p` or shift the data"
+                f"{columns[col]!r} holds {float(X[row, col])!r} at data row {row + 1} "
+                "(counting from 1); drop `log1p` or shift the data"
             )
         X = np.log1p(X)
     scale = spec.get("scale", "none")
