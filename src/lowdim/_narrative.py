@@ -1,0 +1,192 @@
+"""Plain-language readings of the numbers: statistics, and where each method helps or fails.
+
+Every function returns plain text (sentences); the HTML layer escapes it.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pandas as pd
+
+from lowdim._tables import fmt
+from lowdim.scoring import rank_table, significant_pairs
+
+__all__ = ["statistics_reading", "method_profiles"]
+
+
+def _p(p: float | None) -> str:
+    if p is None:
+        return "n/a"
+    return "< 0.001" if p < 0.001 else f"= {p:.3f}"
+
+
+def statistics_reading(key: str, entry: dict, alpha: float = 0.05) -> list[str]:
+    """What the Friedman test and the Nemenyi critical difference say about one criterion."""
+    n, k = entry["n_datasets"], entry["n_methods"]
+    if entry["p_value"] is None:
+        return [
+            f"{key}: no test is possible with {n} dataset(s) and {k} method(s); "
+            "at least 2 of each are needed."
+        ]
+    ranks = entry["mean_ranks"]
+    best = min(ranks, key=ranks.get)
+    out = [
+        f"{key}, over {n} datasets and {k} configurations: Friedman chi2 = "
+        f"{entry['friedman_chi2']:.2f} (p {_p(entry['p_value'])}), Iman-Davenport F = "
+        f"{fmt(entry['iman_davenport_f'])} (p {_p(entry['iman_davenport_p'])})."
+    ]
+    if entry["p_value"] >= alpha:
+        out.append(
+            f"At the {alpha:g} level the rankings are consistent with chance: no method can be "
+            f"called better on {key}, whatever the order of the mean ranks (best: {best}, "
+            f"{ranks[best]:.2f})."
+        )
+        if n < 5:
+            out.append(f"With only {n} datasets the test has little power; add datasets.")
+        return out
+    cd = entry["critical_difference"]
+    pairs = significant_pairs(entry)
+    out.append(
+        f"The rankings differ more than chance would give. Two configurations differ "
+        f"significantly (Nemenyi, {alpha:g}) when their mean ranks are more than CD = {cd:.2f} "
+        "apart."
+    )
+    if pairs:
+        shown = "; ".join(f"{a} ahead of {b} by {d:.2f}" for a, b, d in pairs[:8])
+        more = f" (and {len(pairs) - 8} more pairs)" if len(pairs) > 8 else ""
+        out.append(f"Significant pairs: {shown}{more}.")
+    else:
+        out.append(
+            "Yet no single pair is more than CD apart: the overall difference cannot be "
+            "pinned on any two configurations with this many datasets."
+        )
+    return out
+
+
+def _family_ranks(tuned: pd.DataFrame, selection: str, higher: bool) -> pd.DataFrame:
+    return rank_table(tuned, selection, higher)
+
+
+def method_profiles(
+    tuned: pd.DataFrame,
+    selection: str,
+    higher: bool,
+    breakdown: pd.DataFrame,
+    failures: pd.DataFrame,
+    bandwidth: pd.DataFrame,
+    stability: pd.DataFrame,
+    family_of: dict[str, str],
+    fraction: float,
+) -> dict[str, list[str]]:
+    """For each method (family): best and worst datasets, breakdown points, failures,
+    bandwidth sensitivity and seed stability, in sentences."""
+    ranks = _family_ranks(tuned, selection, higher) if not tuned.empty else pd.DataFrame()
+    values = tuned[tuned["criterion"] == selection].set_index(["dataset", "method"])["mean"]
+    families = sorted(set(family_of.values()))
+    out: dict[str, list[str]] = {}
+    for fam in families:
+        lines: list[str] = []
+        if fam in ranks:
+            r = ranks[fam].dropna().sort_values()
+            k = ranks.shape[1]
+            if len(r):
+                best = r[r == r.min()].index.tolist()
+                worst = r[r == r.max()].index.tolist()
+                lines.append(
+                    f"Helps most on {_names(best)} (rank {r.min():g} of {k} on {selection}, "
+                    f"{_vals(values, best, fam)})."
+                )
+                if r.max() > r.min():
+                    lines.append(
+                        f"Weakest on {_names(worst)} (rank {r.max():g} of {k}, "
+                        f"{_vals(values, worst, fam)})."
+                    )
+        configs = [c for c, f in family_of.items() if f == fam]
+        lines += _breakdown_lines(breakdown, configs, selection, fraction)
+        lines += _failure_lines(failures, fam)
+        lines += _bandwidth_lines(bandwidth, fam)
+        lines += _stability_lines(stability, configs)
+        out[fam] = lines or ["No results for this method."]
+    return out
+
+
+def _names(items: list[str]) -> str:
+    return ", ".join(items[:3]) + (f" and {len(items) - 3} more" if len(items) > 3 else "")
+
+
+def _vals(values: pd.Series, datasets: list[str], fam: str) -> str:
+    got = [values.get((d, fam), math.nan) for d in datasets[:3]]
+    return ", ".join(fmt(v) for v in got)
+
+
+def _breakdown_lines(breakdown: pd.DataFrame, configs: list[str], key: str, frac: float) -> list:
+    part = breakdown[breakdown["method"].isin(configs) & (breakdown["criterion"] == key)]
+    lines = []
+    for _, r in part.iterrows():
+        where = f"{r['dataset']}" + (f" [{r['held']}]" if r["held"] else "")
+        if r["note"]:
+            lines.append(f"{r['method']} along {r['axis']} on {where}: {r['note']}.")
+        elif pd.isna(r["breakdown"]):
+            lines.append(
+                f"{r['method']} holds up along {r['axis']} on {where}: {key} stays above "
+                f"{frac:.0%} of its best ({fmt(r['best'])}) up to "
+                f"{r['axis']} = {r['values'][-1]:g}."
+            )
+        else:
+            lines.append(
+                f"{r['method']} breaks down along {r['axis']} on {where} at {r['axis']} = "
+                f"{r['breakdown']:g} ({key} below {frac:.0%} of its best, {fmt(r['best'])})."
+            )
+    return lines
+
+
+def _failure_lines(failures: pd.DataFrame, fam: str) -> list[str]:
+    part = failures[failures["family"] == fam]
+    if part.empty:
+        return []
+    counts = part["status"].value_counts()
+    summary = ", ".join(f"{n} {s}" for s, n in counts.items())
+    messages = part["error"].fillna("").map(lambda t: " ".join(str(t).split())[:200])
+    distinct = [m for m in dict.fromkeys(messages) if m][:3]
+    where = _names(list(dict.fromkeys(part["dataset"])))
+    text = f"Did not finish {len(part)} job(s) ({summary}) on {where}"
+    return [text + (": " + " / ".join(f"“{m}”" for m in distinct) if distinct else "") + "."]
+
+
+def _bandwidth_lines(bandwidth: pd.DataFrame, fam: str) -> list[str]:
+    part = bandwidth[bandwidth["family"] == fam]
+    lines = []
+    for (held, dataset), g in part.groupby(["held", "dataset"], sort=True):
+        numeric = g[(g["rule"] == "") & g["score"].notna()]
+        if numeric.empty:
+            continue
+        top = numeric.loc[numeric["score"].idxmax()]
+        low = numeric.loc[numeric["score"].idxmin()]
+        sub = f" [{held}]" if held else ""
+        text = (
+            f"Bandwidth on {dataset}{sub}: the score ranges from {fmt(low['score'])} "
+            f"(sigma = {low['bandwidth']:g}) to {fmt(top['score'])} (sigma = {top['bandwidth']:g})"
+        )
+        rules = g[g["rule"] != ""]
+        if not rules.empty:
+            picks = "; ".join(
+                f"rule {r['rule']} gives {fmt(r['score'])}"
+                + (f" at sigma = {r['picked']:.3g}" if math.isfinite(r["picked"]) else "")
+                for _, r in rules.iterrows()
+            )
+            text += f"; {picks}"
+        lines.append(text + ".")
+    return lines
+
+
+def _stability_lines(stability: pd.DataFrame, configs: list[str]) -> list[str]:
+    part = stability[stability["method"].isin(configs) & stability["disparity"].notna()]
+    if part.empty:
+        return []
+    worst = part.loc[part["disparity"].idxmax()]
+    return [
+        f"Across seeds on the same points, the Procrustes disparity is at most "
+        f"{worst['disparity']:.3g} ({worst['method']} on {worst['dataset']}; 0 = identical up "
+        "to rotation and scale, 1 = unrelated)."
+    ]
