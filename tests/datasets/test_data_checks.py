@@ -5,10 +5,11 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
-from numpy.testing import assert_allclose
+from numpy.testing import assert_allclose, assert_array_equal
 
 from lowdim.datasets.checks import (
     DataWarning,
+    _duplicated,
     check_finite,
     check_row_count,
     count_duplicates,
@@ -78,3 +79,13 @@ def test_duplicates_are_counted_not_removed():
     with pytest.warns(DataWarning, match=r"2 duplicate row\(s\) \(the first at data row 3"):
         assert count_duplicates(X, "here", notes) == 2
     assert count_duplicates(np.eye(3), "here", []) == 0
+
+
+def test_row_hashing_finds_exactly_the_rows_pandas_finds():
+    # Oracle: pandas.DataFrame.duplicated, on data with many repeats and a signed zero.
+    rng = np.random.default_rng(0)
+    X = rng.integers(0, 3, size=(3000, 4)).astype(float)
+    X[::5, 2] = -0.0  # equal to 0.0 as a number, different as bits
+    X[::11, 0] = 0.0
+    assert_array_equal(_duplicated(X), pd.DataFrame(X + 0.0).duplicated().to_numpy())
+    assert not _duplicated(rng.normal(size=(500, 3))).any()

@@ -134,9 +134,33 @@ def _names(columns: list[str]) -> str:
     return shown + (f" and {len(columns) - 5} more" if len(columns) > 5 else "")
 
 
+def _duplicated(X: np.ndarray) -> np.ndarray:
+    """True for each row equal to an earlier row.
+
+    Rows are hashed by their bit patterns in a few vectorised passes (wrapping uint64
+    arithmetic), and only rows whose hashes collide are compared exactly, so the common case of
+    no duplicates costs far less than hashing whole rows as tuples.
+    """
+    bits = np.ascontiguousarray(X + 0.0).view(np.uint64)  # + 0.0 makes -0.0 equal to 0.0
+    # Odd random weights per column: the hash is a wrapping weighted sum of mixed bit patterns.
+    weights = np.random.default_rng(0).integers(1, 2**62, size=bits.shape[1], dtype=np.uint64)
+    weights |= np.uint64(1)
+    row_hash = np.empty(X.shape[0], dtype=np.uint64)
+    for start in range(0, X.shape[0], 8192):  # blocks that stay in cache
+        block = bits[start : start + 8192]
+        mixed = (block ^ (block >> np.uint64(29))) * weights
+        row_hash[start : start + 8192] = mixed.sum(axis=1, dtype=np.uint64)
+    candidates = np.flatnonzero(pd.Series(row_hash).duplicated(keep=False).to_numpy())
+    duplicated = np.zeros(X.shape[0], dtype=bool)
+    if candidates.size:
+        # An earlier equal row has the same hash, so it is among the candidates too.
+        duplicated[candidates] = pd.DataFrame(X[candidates]).duplicated().to_numpy()
+    return duplicated
+
+
 def count_duplicates(X: np.ndarray, where: str, notes: list[str], *, warn: bool = True) -> int:
     """Count rows equal to an earlier row; warn, since neighbour ranks then tie arbitrarily."""
-    duplicated = pd.DataFrame(X).duplicated().to_numpy()
+    duplicated = _duplicated(X)
     n_duplicates = int(duplicated.sum())
     if n_duplicates and warn:
         first = int(np.argmax(duplicated))
