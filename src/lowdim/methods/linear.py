@@ -261,52 +261,53 @@ def _double_centre(D2: np.ndarray) -> np.ndarray:
     return D2
 
 
-def _abs_trace(B: np.ndarray, rng, probes: int = 16, steps: int = 40) -> float:
-    """Estimate trace |B| = sum |lambda| by stochastic Lanczos quadrature.
+def _negative_mass(B: np.ndarray, vectors: np.ndarray, values: np.ndarray, rng) -> float:
+    """Estimate N = sum of |negative eigenvalues| of B by stochastic Lanczos quadrature.
 
     Ubaru, Chen & Saad, SIAM J. Matrix Anal. Appl. 38 (2017), https://doi.org/10.1137/16M1104974:
     for Rademacher probes z, z^T f(B) z ~ |z|^2 sum_j tau_j^2 f(theta_j) from the Ritz values
-    theta_j and first eigenvector entries tau_j of the Lanczos tridiagonal matrix. The probes
-    run side by side, so each step is one matrix-matrix product.
+    theta_j and first eigenvector entries tau_j of the Lanczos tridiagonal matrix, here with
+    f(x) = max(-x, 0). The known top eigenpairs are deflated first, so a positive
+    semi-definite remainder gives N ~ 0 instead of the noise of a trace estimate. The probes
+    run side by side: each step is one matrix-matrix product.
     """
     n = B.shape[0]
-    steps = min(steps, n)
+    probes, steps = 16, min(40, n)
     q = rng.choice([-1.0, 1.0], size=(n, probes)) / np.sqrt(n)
     q_prev = np.zeros_like(q)
     alphas = np.zeros((steps, probes))
     betas = np.zeros((steps, probes))
     beta = np.zeros(probes)
     for j in range(steps):
-        w = B @ q
+        w = B @ q - vectors @ (values[:, None] * (vectors.T @ q))
         alphas[j] = np.einsum("ij,ij->j", q, w)
         w -= alphas[j] * q + beta * q_prev
         beta = np.linalg.norm(w, axis=0)
         betas[j] = beta
         q_prev, q = q, w / np.where(beta > 0, beta, 1.0)
-    scale = max(float(np.max(np.abs(alphas))), np.finfo(float).tiny)
+    scale = max(float(np.max(np.abs(values))), np.finfo(float).tiny)
     total = 0.0
     for p in range(probes):
         # an invariant subspace found early ends that probe's recurrence
         small = np.flatnonzero(betas[:, p] <= 1e-12 * scale)
         size = int(small[0]) + 1 if small.size else steps
         theta, tau = scipy.linalg.eigh_tridiagonal(alphas[:size, p], betas[: size - 1, p])
-        total += n * float(np.sum(tau[0] ** 2 * np.abs(theta)))
+        total += n * float(np.sum(tau[0] ** 2 * np.clip(-theta, 0.0, None)))
     return total / probes
 
 
-def _negative_share(B: np.ndarray, top: np.ndarray, trace: float, rng) -> float:
-    """The share of sum |lambda| carried by the negative eigenvalues of B.
+def _negative_share(B: np.ndarray, vectors: np.ndarray, values: np.ndarray, rng) -> float:
+    """The share N / (P + N) of sum |lambda| carried by the negative eigenvalues of B.
 
-    With P and N the positive and negative eigenvalue masses, trace(B) = P - N and
-    trace |B| = P + N, so N = (trace |B| - trace(B)) / 2; trace |B| is exact for small
-    matrices and estimated by stochastic Lanczos quadrature for large ones. The top eigenvalues
-    bound N from below (N >= sum(top+) - trace(B)), which guards the estimate.
+    P - N = trace(B) is exact; N is exact for small matrices and estimated by stochastic
+    Lanczos quadrature (:func:`_negative_mass`) for large ones.
     """
+    trace = float(np.trace(B))
     if B.shape[0] <= DENSE_LIMIT:
-        absolute = float(np.sum(np.abs(scipy.linalg.eigvalsh(B, check_finite=False))))
+        spectrum = scipy.linalg.eigvalsh(B, check_finite=False)
+        negative = float(-np.sum(spectrum[spectrum < 0]))
     else:
-        absolute = _abs_trace(B, rng)
-    negative = max((absolute - trace) / 2.0, float(np.sum(top[top > 0])) - trace, 0.0)
+        negative = _negative_mass(B, vectors, values, rng)
     mass = trace + 2.0 * negative
     if mass <= 0:
         return 0.0
@@ -318,7 +319,6 @@ def _classical_scaling(D2: np.ndarray, k: int, rng) -> _Scaling:
     """Classical MDS of squared dissimilarities ``D2`` (overwritten with B)."""
     mean_sq = D2.mean(axis=0)
     B = _double_centre(D2)
-    trace = float(np.trace(B))
     top = top_eigenpairs(B, k, random_state=rng)
     scale = max(float(np.max(np.abs(top.values))), np.finfo(float).tiny)
     values = np.where(np.abs(top.values) < 1e-10 * scale, 0.0, top.values)
@@ -329,7 +329,7 @@ def _classical_scaling(D2: np.ndarray, k: int, rng) -> _Scaling:
         coordinates=top.vectors * root,
         pinv=top.vectors * inverse,
         mean_sq=mean_sq,
-        negative_share=_negative_share(B, values, trace, rng),
+        negative_share=_negative_share(B, top.vectors, top.values, rng),
         solver=top.solver,
     )
 
@@ -365,10 +365,10 @@ class ClassicalMDS(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstima
         centred data. Coordinates of a non-positive eigenvalue are 0.
     negative_eigenvalue_share_ : float
         Share of sum |lambda| carried by negative eigenvalues of B (0 for Euclidean input);
-        above 0.05 a warning says the dissimilarities are not Euclidean. From trace(B) =
-        P - N and trace |B| = P + N (P, N the positive and negative masses), with trace |B|
-        exact up to 600 points and estimated by stochastic Lanczos quadrature [4]_ above,
-        never by a full eigendecomposition of a large matrix.
+        above 0.05 a warning says the dissimilarities are not Euclidean. With P and N the
+        positive and negative masses, P - N = trace(B) is exact; N is exact up to 600 points
+        and estimated above by stochastic Lanczos quadrature [4]_ on B with its top
+        eigenpairs deflated, never by a full eigendecomposition of a large matrix.
     landmarks_ : ndarray of int or None
         Indices of the landmarks, sorted.
     n_components_ : int
