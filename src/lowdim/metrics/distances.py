@@ -48,6 +48,11 @@ def pair_subset(n: int, pair_points: int, random_state: int | None) -> np.ndarra
     return np.sort(rng.choice(n, size=pair_points, replace=False))
 
 
+def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
+    # numpy's pairwise summation, not BLAS dot: the same bits whatever the thread count.
+    return float(np.multiply(a, b).sum())
+
+
 def _pairs(Z: np.ndarray, subset: np.ndarray | None) -> np.ndarray:
     return pdist(Z if subset is None else Z[subset])
 
@@ -73,13 +78,13 @@ def centred_distance_ranks(Z: np.ndarray, subset: np.ndarray | None) -> np.ndarr
 
 def spearman_of_ranks(ra: np.ndarray, rb: np.ndarray, owner: str) -> float:
     """Pearson correlation of two centred rank vectors: Spearman's rho."""
-    denominator = np.sqrt(np.dot(ra, ra) * np.dot(rb, rb))
+    denominator = np.sqrt(_sum_of_products(ra, ra) * _sum_of_products(rb, rb))
     if denominator == 0.0:
         raise InputError(
             f"`{owner}` is undefined here: all pairwise distances of one of the two point "
             "sets are equal"
         )
-    return float(np.dot(ra, rb) / denominator)
+    return float(_sum_of_products(ra, rb) / denominator)
 
 
 def spearman_of_distances(
@@ -109,8 +114,8 @@ def stress_parts(X: np.ndarray, Y: np.ndarray, subset: np.ndarray | None = None)
     """
     dx = _pairs(X, subset)
     dy = _pairs(Y, subset)
-    xx, yy, xy = np.dot(dx, dx), np.dot(dy, dy), np.dot(dx, dy)
-    raw = float(np.dot(dx - dy, dx - dy) / xx)
+    xx, yy, xy = _sum_of_products(dx, dx), _sum_of_products(dy, dy), _sum_of_products(dx, dy)
+    raw = float(_sum_of_products(dx - dy, dx - dy) / xx)
     return StressParts(float(xy / yy), raw, float(max(0.0, 1.0 - xy * xy / (xx * yy))))
 
 

@@ -31,7 +31,9 @@ def procrustes_disparity(T: np.ndarray, Y: np.ndarray) -> float:
     B = Y - Y.mean(axis=0)
     A /= np.linalg.norm(A)
     B /= np.linalg.norm(B)
-    s = np.linalg.svd(A.T @ B, compute_uv=False)
+    # Summed by numpy rather than BLAS so that the bits do not depend on the thread count.
+    cross = (A[:, :, None] * B[:, None, :]).sum(axis=0)
+    s = np.linalg.svd(cross, compute_uv=False)
     return float(max(0.0, 1.0 - s.sum() ** 2))
 
 
