@@ -1,5 +1,6 @@
 """validate_spec and load: checking a spec without loading, defaults, normalisation, errors."""
 
+import numpy as np
 import pytest
 
 from lowdim.datasets import describe, load, validate_spec
@@ -121,3 +122,18 @@ def test_describe():
     assert "cache" in describe("openml")["parameters"]
     with pytest.raises(InputError, match="did you mean 'torus'"):
         describe("tours")
+
+
+def test_file_subsample_keeps_rows_in_file_order(tmp_path):
+    # The additive contract in DEVELOPERS.md: subsample = N keeps N random rows in file order,
+    # drawn with subsample_seed; absent keys stay out of the normalised spec.
+    path = tmp_path / "rows.npy"
+    np.save(path, np.column_stack([np.arange(100.0), np.arange(100.0) ** 0.5]))
+    assert "subsample" not in validate_spec({"file": str(path)})
+    spec = {"file": str(path), "subsample": 30, "subsample_seed": 1}
+    data = load(spec)
+    assert data.X.shape == (30, 2) and np.all(np.diff(data.X[:, 0]) > 0)
+    assert data.meta["rows_in_file"] == 100
+    assert np.array_equal(load(spec).X, data.X)
+    assert not np.array_equal(load({**spec, "subsample_seed": 2}).X, data.X)
+    assert load({**spec, "subsample": 500}).X.shape == (100, 2)
