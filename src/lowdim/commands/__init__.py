@@ -11,4 +11,5 @@ COMMANDS: list[str] = [
     "embed",
     "methods",
     "datasets",
+    "metrics",
 ]
