@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import codecs
 import csv
+import errno
 import hashlib
 import importlib.util
 from pathlib import Path
@@ -254,7 +255,7 @@ def load_file(spec: dict) -> Dataset:
     path = Path(spec["file"]).expanduser()
     where = f"the file {str(path)!r}"
     if not path.exists():
-        raise FileNotFoundError(2, f"no such file: {str(path)!r}", str(path))
+        raise FileNotFoundError(errno.ENOENT, "no such data file", str(path))
     if path.is_dir():
         raise InputError(f"{where} is a folder, not a file; name a data file inside it")
     kind = file_format(path)
