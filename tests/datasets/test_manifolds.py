@@ -81,6 +81,17 @@ def test_swiss_roll_matches_make_swiss_roll():
     assert stats.ks_2samp(ours[:, 1], X_ref[:, 1]).pvalue > 0.01
 
 
+def test_swiss_roll_with_height_30_is_the_published_recipe():
+    # TiCC TR 2009-005 App. B: t = (3 pi / 2)(1 + 2p), x = (t cos t, t sin t, 30 q) with p, q
+    # uniform on [0, 1]; our coordinates are in scikit-learn's order (t cos t, height, t sin t).
+    data = load({"name": "swiss_roll", "n": 3000, "height": 30, "seed": 0})
+    t = _roll_t(data.X)
+    p, q = (t / (1.5 * np.pi) - 1) / 2, data.X[:, 1] / 30
+    assert_allclose(data.X[:, [0, 2]], np.column_stack([t * np.cos(t), t * np.sin(t)]), atol=1e-9)
+    assert stats.kstest(p, "uniform").pvalue > 0.01
+    assert stats.kstest(q, "uniform").pvalue > 0.01
+
+
 def test_swiss_roll_truth_is_arc_length_and_height():
     data = load({"name": "swiss_roll", "n": 500, "seed": 2})
     t = _roll_t(data.X)

@@ -353,7 +353,13 @@ _add(
     citation=_TR,
     native=3,
     intrinsic=2,
-    own={"height": Param(21.0, (Interval(float, 0, None, "neither"),), _HEIGHT)},
+    own={
+        "height": Param(
+            21.0,
+            (Interval(float, 0, None, "neither"),),
+            "height of the roll (21 as in scikit-learn; the TiCC TR 2009-005 uses 30)",
+        )
+    },
 )
 _add(
     "swiss_hole",
