@@ -73,7 +73,8 @@ def bandwidth_curves(results: Results, table: pd.DataFrame, criterion: str) -> p
 
 
 def _held_text(canonical: str) -> str:
-    return ", ".join(f"{k}={v}" for k, v in json.loads(canonical).items())
+    shown = {k: v for k, v in json.loads(canonical).items() if k not in ("name", "import")}
+    return ", ".join(f"{k}={v}" for k, v in shown.items())
 
 
 def loglog_slope(n: np.ndarray, y: np.ndarray) -> float:

@@ -14,7 +14,7 @@ from typing import Any
 import pandas as pd
 
 from lowdim._narrative import method_profiles, statistics_reading
-from lowdim._tables import fmt, mean_sd
+from lowdim._tables import fmt, mean_sd, natural_key, natural_order
 from lowdim.scoring import rank_table
 
 __all__ = ["render_report", "esc", "Raw"]
@@ -103,7 +103,7 @@ def _overview(ev: Any) -> Raw:
         ("suite", ", ".join(suites) or "not recorded"),
         ("jobs", f"{len(jobs)} ({', '.join(f'{n} {s}' for s, n in status.items())})"),
         ("datasets", str(jobs["data"].nunique())),
-        ("configurations", f"{jobs['config'].nunique()} of {jobs['family'].nunique()} methods"),
+        ("configurations", f"{jobs['config'].nunique()} ({jobs['family'].nunique()} methods)"),
         ("seeds", ", ".join(f"{s:g}" for s in sorted(jobs["seed"].dropna().unique()))),
         ("wall time", _duration(_wall_seconds(runs, jobs))),
         ("fit time, summed", _duration(float(jobs["fit_seconds"].sum(min_count=1) or math.nan))),
@@ -113,7 +113,7 @@ def _overview(ev: Any) -> Raw:
         _join([_tag("div", _join([_tag("dt", k), _tag("dd", v)])) for k, v in facts]),
         cls="facts",
     )
-    data = jobs.drop_duplicates("data").sort_values("data")
+    data = jobs.drop_duplicates("data").sort_values("data", key=natural_order)
     data_rows = [
         [
             r["data"],
@@ -235,16 +235,17 @@ def _per_dataset(ev: Any) -> Raw:
         _figure(ev.figures.get("rnx"), ev.captions.get("rnx", ""), "R_NX curves"),
     ]
     board = ev.board[ev.board["scope"] == "dataset"]
-    for i, dataset in enumerate(sorted(board["dataset"].unique())):
+    for i, dataset in enumerate(sorted(board["dataset"].unique(), key=natural_key)):
         part = board[(board["dataset"] == dataset) & board["criterion"].isin(ev.headline)]
+        keys = [k for k in ev.headline if k in set(part["criterion"])]
         rows = []
         for method in sorted(part["method"].unique()):
             cells: list[Any] = [method]
-            for key in ev.headline:
+            for key in keys:
                 col = part[part["criterion"] == key]
                 hit = col[col["method"] == method]
                 if hit.empty or pd.isna(hit["mean"].iloc[0]):
-                    cells.append("failed / not scored")
+                    cells.append("no score (failed)")
                     continue
                 r = hit.iloc[0]
                 text = f"{mean_sd(r['mean'], r['sd'])} (#{r['rank']:g})"

@@ -26,7 +26,7 @@ def statistics_reading(key: str, entry: dict, alpha: float = 0.05) -> list[str]:
     n, k = entry["n_datasets"], entry["n_methods"]
     if entry["p_value"] is None:
         return [
-            f"{key}: no test is possible with {n} dataset(s) and {k} method(s); "
+            f"{key}: no test is possible with {n} dataset(s) and {k} configuration(s); "
             "at least 2 of each are needed."
         ]
     ranks = entry["mean_ranks"]
@@ -123,21 +123,27 @@ def _vals(values: pd.Series, datasets: list[str], fam: str) -> str:
 def _breakdown_lines(breakdown: pd.DataFrame, configs: list[str], key: str, frac: float) -> list:
     part = breakdown[breakdown["method"].isin(configs) & (breakdown["criterion"] == key)]
     lines = []
-    for _, r in part.iterrows():
-        where = f"{r['dataset']}" + (f" [{r['held']}]" if r["held"] else "")
-        if r["note"]:
-            lines.append(f"{r['method']} along {r['axis']} on {where}: {r['note']}.")
-        elif pd.isna(r["breakdown"]):
+    for (dataset, axis, held), g in part.groupby(["dataset", "axis", "held"], sort=True):
+        where = f"along {axis} on {dataset}" + (f" [{held}]" if held else "")
+        undefined = g[g["note"] != ""]
+        broken = g[(g["note"] == "") & g["breakdown"].notna()]
+        held_up = g[(g["note"] == "") & g["breakdown"].isna()]
+        clauses = []
+        for value, b in broken.groupby("breakdown", sort=True):
+            clauses.append(f"{_names(sorted(b['method']))} at {axis} = {value:g}")
+        if clauses:
             lines.append(
-                f"{r['method']} holds up along {r['axis']} on {where}: {key} stays above "
-                f"{frac:.0%} of its best ({fmt(r['best'])}) up to "
-                f"{r['axis']} = {r['values'][-1]:g}."
+                f"Breaks down {where}: " + "; ".join(clauses) + f" ({key} below {frac:.0%} "
+                "of the configuration's own best)."
             )
-        else:
+        if not held_up.empty:
+            top = max(v[-1] for v in held_up["values"])
             lines.append(
-                f"{r['method']} breaks down along {r['axis']} on {where} at {r['axis']} = "
-                f"{r['breakdown']:g} ({key} below {frac:.0%} of its best, {fmt(r['best'])})."
+                f"Holds up {where} ({_names(sorted(held_up['method']))}: {key} stays above "
+                f"{frac:.0%} of its best up to {axis} = {top:g})."
             )
+        if not undefined.empty:
+            lines.append(f"No breakdown point {where}: {undefined['note'].iloc[0]}.")
     return lines
 
 
@@ -155,27 +161,27 @@ def _failure_lines(failures: pd.DataFrame, fam: str) -> list[str]:
 
 
 def _bandwidth_lines(bandwidth: pd.DataFrame, fam: str) -> list[str]:
-    part = bandwidth[bandwidth["family"] == fam]
+    part = bandwidth[(bandwidth["family"] == fam) & bandwidth["score"].notna()]
     lines = []
-    for (held, dataset), g in part.groupby(["held", "dataset"], sort=True):
-        numeric = g[(g["rule"] == "") & g["score"].notna()]
+    for held, g in part.groupby("held", sort=True):
+        numeric = g[g["rule"] == ""]
         if numeric.empty:
             continue
-        top = numeric.loc[numeric["score"].idxmax()]
-        low = numeric.loc[numeric["score"].idxmin()]
+        per = numeric.groupby("dataset")["score"]
+        spread = (per.max() - per.min()).mean()
+        best_sigma = numeric.loc[per.idxmax(), "bandwidth"].value_counts()
+        sigma, wins = best_sigma.index[0], int(best_sigma.iloc[0])
         sub = f" [{held}]" if held else ""
         text = (
-            f"Bandwidth on {dataset}{sub}: the score ranges from {fmt(low['score'])} "
-            f"(sigma = {low['bandwidth']:g}) to {fmt(top['score'])} (sigma = {top['bandwidth']:g})"
+            f"Bandwidth{sub}: between the worst and the best fixed sigma the score moves by "
+            f"{fmt(spread)} on average over {per.ngroups} dataset(s); sigma = {sigma:g} is best "
+            f"on {wins} of them"
         )
-        rules = g[g["rule"] != ""]
-        if not rules.empty:
-            picks = "; ".join(
-                f"rule {r['rule']} gives {fmt(r['score'])}"
-                + (f" at sigma = {r['picked']:.3g}" if math.isfinite(r["picked"]) else "")
-                for _, r in rules.iterrows()
-            )
-            text += f"; {picks}"
+        best = per.max()
+        for rule, r in g[g["rule"] != ""].groupby("rule", sort=True):
+            share = (r.set_index("dataset")["score"] / best).dropna()
+            if len(share):
+                text += f"; rule {rule} reaches {share.mean():.0%} of the best fixed sigma's score"
         lines.append(text + ".")
     return lines
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 import pandas as pd
 
@@ -21,6 +22,20 @@ def mean_sd(mean: float, sd: float) -> str:
     if sd is None or not math.isfinite(sd):
         return fmt(mean)
     return f"{fmt(mean)} ± {fmt(sd, 2)}"
+
+
+def natural_key(text: str) -> list:
+    """Sort key putting ``n=40`` before ``n=160``: digit runs compare as numbers."""
+    return [
+        (0, float(t), "") if t[:1].isdigit() else (1, 0.0, t)
+        for t in re.findall(r"\d+(?:\.\d+)?|\D+", str(text))
+    ]
+
+
+def natural_order(values: pd.Series) -> pd.Series:
+    """:func:`natural_key` for ``DataFrame.sort_values(key=...)``."""
+    order = {v: i for i, v in enumerate(sorted(set(values), key=natural_key))}
+    return values.map(order)
 
 
 def leaderboard_csv(board: pd.DataFrame) -> str:
@@ -83,7 +98,9 @@ def leaderboard_markdown(
         cells.append(f"{overall[method]:.2f}")
         rows.append(cells)
     lines += _md_table(["method", *keys, "overall"], rows) + [""]
-    for dataset in sorted(board.loc[board["scope"] == "dataset", "dataset"].unique()):
+    for dataset in sorted(
+        board.loc[board["scope"] == "dataset", "dataset"].unique(), key=natural_key
+    ):
         part = _per_dataset(board, dataset, keys)
         lines += [f"## {_md_cell(dataset)}", ""]
         lines += _md_table(["method", *keys], _cells(part, keys, criteria, bold=("**", "**")))
@@ -98,7 +115,7 @@ def leaderboard_markdown(
             "optimistic (chosen on the very numbers it reports)."
         )
         lines.append("")
-        for dataset in sorted(tuned["dataset"].unique()):
+        for dataset in sorted(tuned["dataset"].unique(), key=natural_key):
             part = tuned[(tuned["dataset"] == dataset) & tuned["criterion"].isin(keys)]
             pick = part.drop_duplicates("method").set_index("method")["configuration"]
             lines += [f"### {_md_cell(dataset)}", ""]
@@ -170,7 +187,7 @@ def leaderboard_latex(
         head + " \\\\",
         "\\midrule",
     ]
-    datasets = sorted(board.loc[board["scope"] == "dataset", "dataset"].unique())
+    datasets = sorted(board.loc[board["scope"] == "dataset", "dataset"].unique(), key=natural_key)
     for i, dataset in enumerate(datasets):
         part = _per_dataset(board, dataset, keys).assign(rank=math.nan)
         for j, row in enumerate(_cells(part, keys, criteria, bold=("\\textbf{", "}"))):

@@ -41,6 +41,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 import seaborn as sns  # noqa: E402
+from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter  # noqa: E402
 
 __all__ = [
     "PALETTE",
@@ -99,6 +100,19 @@ def _save(fig: plt.Figure, path: Path) -> Path:
         if os.path.exists(tmp):
             os.remove(tmp)
     return path
+
+
+def _log_axis(ax: plt.Axes, which: str) -> None:
+    """A log scale labelled 1, 2, 5, 10, 20 ... in plain numbers (no crowded mathtext)."""
+    if which == "x":
+        ax.set_xscale("log")
+        axis = ax.xaxis
+    else:
+        ax.set_yscale("log")
+        axis = ax.yaxis
+    axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_formatter(NullFormatter())
 
 
 def _grid(n: int, ncols: int) -> tuple[int, int]:
@@ -220,7 +234,7 @@ def rnx_curves(curves: pd.DataFrame, path: Path, max_panels: int = 6) -> Path | 
                 markeredgewidth=0.4,
                 **styles[m],
             )
-        ax.set_xscale("log")
+        _log_axis(ax, "x")
         ax.set_title(_short(d, 40))
         ax.set_xlabel("K (neighbourhood size)")
         ax.set_ylabel("R_NX(K)")
@@ -281,7 +295,7 @@ def critical_difference_diagram(
     ax.set_xlim(lo, hi)
     ax.set_xlabel("mean rank (1 = best)")
     ax.plot([lo + 0.25, lo + 0.25 + cd], [-0.9, -0.9], color=_EDGE, linewidth=1.5, clip_on=False)
-    ax.text(lo + 0.25 + cd / 2, -1.05, f"CD = {cd:.2f}", ha="center", va="bottom", fontsize=7)
+    ax.text(lo + 0.35 + cd, -0.9, f"CD = {cd:.2f}", ha="left", va="center", fontsize=7)
     ax.set_ylim(k - 0.5, -1.4)
     ax.set_title(title, loc="left")
     ax.grid(axis="y", visible=False)
@@ -345,11 +359,11 @@ def bandwidth_sensitivity(
                     linewidth=1.2,
                     label=f"rule {r['rule']} (sigma not recorded)",
                 )
-        ax.set_xscale("log")
+        _log_axis(ax, "x")
         ax.set_xlabel("bandwidth sigma")
         ax.set_ylabel(criterion)
-        sub = f" [{held}]" if held else ""
-        ax.set_title(_short(f"{family}{sub} on {dataset}", 48))
+        title = _short(f"{family} on {dataset}", 44)
+        ax.set_title(title + (f"\n{_short(held, 48)}" if held else ""), fontsize=8)
         ax.legend(fontsize=6, frameon=False)
     fig.subplots_adjust(hspace=0.6, wspace=0.35)
     return _save(fig, path)
@@ -389,8 +403,8 @@ def scaling_curves(scaling: pd.DataFrame, fits: pd.DataFrame, path: Path) -> Pat
                 label=_short(m, 30) + tag,
                 **styles[m],
             )
-        ax.set_xscale("log")
-        ax.set_yscale("log")
+        _log_axis(ax, "x")
+        _log_axis(ax, "y")
         ax.set_xlabel("n (points)")
         ax.set_ylabel(label)
         ax.legend(fontsize=6, frameon=False)

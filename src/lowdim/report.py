@@ -30,6 +30,7 @@ from lowdim import __version__, plots
 from lowdim._curves import bandwidth_curves, gallery_panels, rnx_curves, scaling_table
 from lowdim._tables import leaderboard_csv, leaderboard_latex, leaderboard_markdown
 from lowdim.breakdown import DatasetCache, breakdown_table, seed_stability
+from lowdim.errors import InputError, suggestion
 from lowdim.scoring import (
     Results,
     criteria_in,
@@ -88,7 +89,13 @@ def gather_evidence(
     summary = summarise(table)
     criteria = criteria_in(summary)
     headline = headline_criteria(criteria)
-    if selection is None or selection not in criteria:
+    if selection is not None and selection not in criteria:
+        raise InputError(
+            f"the selection criterion {selection!r} is not among the criteria scored in "
+            f"{str(results.out_dir)!r}{suggestion(selection, criteria)}; give one of "
+            f"{', '.join(criteria) or '(none)'}."
+        )
+    if selection is None:
         selection = headline[0] if headline else next(iter(criteria), "")
     board = leaderboard(summary, criteria)
     tuned = (

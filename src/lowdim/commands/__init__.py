@@ -7,6 +7,7 @@ Add a command by writing ``lowdim/commands/<name>.py`` with ``HELP``, ``add_argu
 COMMANDS: list[str] = [
     "run",
     "status",
+    "report",
     "compare",
     "embed",
     "methods",
