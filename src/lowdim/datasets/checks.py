@@ -141,13 +141,15 @@ def _duplicated(X: np.ndarray) -> np.ndarray:
     arithmetic), and only rows whose hashes collide are compared exactly, so the common case of
     no duplicates costs far less than hashing whole rows as tuples.
     """
-    bits = np.ascontiguousarray(X + 0.0).view(np.uint64)  # + 0.0 makes -0.0 equal to 0.0
+    bits = np.ascontiguousarray(X, dtype=np.float64).view(np.uint64)
+    negative_zero = np.uint64(1 << 63)  # the bits of -0.0, which equals 0.0 as a number
     # Odd random weights per column: the hash is a wrapping weighted sum of mixed bit patterns.
     weights = np.random.default_rng(0).integers(1, 2**62, size=bits.shape[1], dtype=np.uint64)
     weights |= np.uint64(1)
     row_hash = np.empty(X.shape[0], dtype=np.uint64)
     for start in range(0, X.shape[0], 8192):  # blocks that stay in cache
         block = bits[start : start + 8192]
+        block = np.where(block == negative_zero, np.uint64(0), block)
         mixed = (block ^ (block >> np.uint64(29))) * weights
         row_hash[start : start + 8192] = mixed.sum(axis=1, dtype=np.uint64)
     candidates = np.flatnonzero(pd.Series(row_hash).duplicated(keep=False).to_numpy())
