@@ -31,7 +31,9 @@ def test_a_result_comes_back():
     assert (outcome.status, outcome.value) == ("ok", (3, 2))
 
 
-def test_a_hang_is_stopped_at_the_time_limit():
+@pytest.mark.parametrize("start", ["fork", "forkserver"])
+def test_a_hang_is_stopped_at_the_time_limit(monkeypatch, start):
+    monkeypatch.setattr(_limits, "START_METHOD", start)
     tic = time.monotonic()
     outcome = run_limited(time.sleep, (600,), timeout=1.0, memory_limit=None)
     assert outcome.status == "timeout"

@@ -20,18 +20,24 @@ How the limits work:
   that forked it dies, and the waiting parent stops waiting when the driver that owns the run
   dies, so killing a run with SIGKILL leaves no job running on.
 
-Children come from a ``forkserver`` (a clean, single-threaded process that imports numpy,
-scipy and scikit-learn once, then forks one child per job): forking is cheap, and unlike a
-plain ``fork`` it is safe when the parent runs threads (the dask worker, tqdm's monitor).
+How children are made: a parent with a single thread (a loky worker) forks the child
+directly, which is cheapest since the child inherits every imported module. A parent that runs
+threads (a dask worker, the driver with tqdm's monitor thread) must not fork, since a lock held
+by another thread would stay locked in the child for ever; it uses a ``forkserver`` instead, a
+clean single-threaded process that imports numpy, scikit-learn and lowdim once and then forks
+one child per job.
 """
 
 from __future__ import annotations
 
 import ctypes
+import functools
+import importlib
 import multiprocessing as mp
 import os
 import resource
 import signal
+import threading
 import time
 import traceback
 from collections.abc import Callable
@@ -42,11 +48,16 @@ import psutil
 
 __all__ = ["Outcome", "run_limited", "START_METHOD", "PRELOAD"]
 
-# "forkserver" for the reasons above; "fork" is also accepted (it keeps the parent's state, which
-# in-process tests rely on to hand fakes to the child).
-START_METHOD = "forkserver"
+# "auto": fork from a single-threaded parent, the fork server otherwise; "fork" and "forkserver"
+# force one (in-process tests use "fork" to hand fakes to the child).
+START_METHOD = "auto"
 PRELOAD = [
     "numpy",
+    "sklearn.neighbors",
+    "lowdim.methods.linear",
+    "lowdim.methods.kernel_pca",
+    "lowdim.methods.laplacian",
+    "lowdim.methods.diffusion",
     "scipy.sparse",
     "sklearn.base",
     "lowdim._worker",
@@ -54,6 +65,8 @@ PRELOAD = [
     "lowdim.metrics",
 ]
 _POLL = 0.05
+_READY = "ready"
+_START_GRACE = 300.0
 _PR_SET_PDEATHSIG = 1
 
 
@@ -90,6 +103,7 @@ def _cap_address_space(memory_limit: int | None) -> None:
 
 def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None) -> None:
     _die_with_parent()
+    conn.send(_READY)
     try:
         _cap_address_space(memory_limit)
         message = ("ok", fn(*args))
@@ -120,10 +134,26 @@ def _alive(pid: int | None) -> bool:
 
 
 def _context() -> Any:
-    ctx = mp.get_context(START_METHOD)
-    if START_METHOD == "forkserver":
+    method = START_METHOD
+    if method == "auto":
+        method = "fork" if threading.active_count() == 1 else "forkserver"
+    ctx = mp.get_context(method)
+    if method == "forkserver":
         ctx.set_forkserver_preload(PRELOAD)
+    else:
+        _preload()
     return ctx
+
+
+@functools.cache
+def _preload() -> None:
+    # Imported once in the parent, so that each forked child starts with them loaded instead
+    # of importing them again within its time limit.
+    for name in PRELOAD:
+        try:
+            importlib.import_module(name)
+        except ImportError:
+            pass
 
 
 def run_limited(
@@ -144,11 +174,14 @@ def run_limited(
     ctx = _context()
     receive, send = ctx.Pipe(duplex=False)
     proc = ctx.Process(target=_child, args=(send, fn, args, memory_limit), daemon=True)
-    start = time.monotonic()
     proc.start()
     send.close()
     watched = psutil.Process(proc.pid)
     peak = 0
+    # The clock starts when the child is running, so that starting the fork server (once per
+    # worker, seconds on a busy machine) is not charged to the first job.
+    start = time.monotonic()
+    ready = False
     try:
         while True:
             if receive.poll(_POLL):
@@ -156,6 +189,10 @@ def run_limited(
                     message = receive.recv()
                 except EOFError:
                     message = None
+                if message == _READY and not ready:
+                    ready = True
+                    start = time.monotonic()
+                    continue
                 break
             if not proc.is_alive():
                 message = receive.recv() if receive.poll(0) else None
@@ -174,7 +211,13 @@ def run_limited(
                     seconds=elapsed,
                     peak_rss_mb=peak / 2**20,
                 )
-            if timeout is not None and elapsed > timeout:
+            if not ready and elapsed > _START_GRACE:
+                return Outcome(
+                    "failed",
+                    error=f"the job's process did not start within {_START_GRACE:g} s",
+                    seconds=elapsed,
+                )
+            if timeout is not None and elapsed > timeout and ready:
                 return Outcome(
                     "timeout",
                     error=f"stopped after the time limit of {timeout:g} s",
