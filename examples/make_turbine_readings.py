@@ -1,11 +1,13 @@
 """Make a demo data file: sensor readings from a made-up wind turbine's hub.
 
-Each row is one snapshot of eight channels: four strain gauges round the hub, three
-accelerometer axes and the nacelle temperature. Two hidden quantities drive them: the rotor's
-angle (a circle) and the wind speed. The readings therefore lie near a curved two-dimensional
-sheet (a cylinder, bent) inside the eight-dimensional space, which linear methods flatten
-badly. The column ``regime`` names the wind regime (calm, working, gusty), and
-``reading_id`` is a counter that should be dropped before any comparison.
+Each row is one ten-minute snapshot of five channels: two bending gauges on the hub
+(``bend_x``, ``bend_y``, kN m), the ambient temperature (``temp_c``) and two vibration
+channels that carry only noise. Two hidden quantities drive them: the wind speed and the
+ambient temperature. As the wind rises, the load grows and the yaw controller turns its
+direction, so the two gauges trace a spiral; the temperature varies on its own. The readings
+therefore lie near a rolled-up sheet (the wind along the roll, the temperature across it),
+which a linear projection folds onto itself. The column ``regime`` names the wind regime
+(calm, working, gusty), and ``reading_id`` is a counter to drop before any comparison.
 
 Usage::
 
@@ -23,18 +25,21 @@ import numpy as np
 import pandas as pd
 
 
-def turbine_readings(rows: int = 600, seed: int = 0, noise: float = 0.03) -> pd.DataFrame:
-    """The readings as a data frame: ``reading_id``, eight channels and ``regime``."""
+def turbine_readings(rows: int = 600, seed: int = 0, noise: float = 0.3) -> pd.DataFrame:
+    """The readings as a data frame: ``reading_id``, five channels and ``regime``."""
     rng = np.random.default_rng(seed)
-    angle = rng.uniform(0.0, 2.0 * np.pi, rows)
     wind = rng.uniform(3.0, 15.0, rows)
-    load = wind / 15.0
-    channels = {f"strain_{i + 1}": load * np.cos(angle + i * np.pi / 2.0) for i in range(4)}
-    channels["accel_x"] = 0.6 * load * np.sin(2.0 * angle)
-    channels["accel_y"] = 0.6 * load * np.cos(2.0 * angle)
-    channels["accel_z"] = 0.8 * load**2
-    channels["temp_c"] = 1.0 - 0.5 * load
-    frame = pd.DataFrame(channels)
+    # The load's direction turns 1.5 times round as the wind goes from 3 to 15 m/s.
+    turn = 1.5 * np.pi * (1.0 + 2.0 * (wind - 3.0) / 12.0)
+    frame = pd.DataFrame(
+        {
+            "bend_x": turn * np.cos(turn),
+            "bend_y": turn * np.sin(turn),
+            "temp_c": rng.uniform(-5.0, 25.0, rows),
+            "vibration_1": np.zeros(rows),
+            "vibration_2": np.zeros(rows),
+        }
+    )
     frame += rng.normal(0.0, noise, frame.shape)
     frame.insert(0, "reading_id", np.arange(1, rows + 1))
     frame["regime"] = np.select([wind < 6.0, wind < 11.0], ["calm", "working"], "gusty")

@@ -123,7 +123,23 @@ def test_clear_winner_wording():
         "(bandwidth=2.0) to 0.850 (bandwidth=median) over the 2 bandwidths tried; check the "
         "pick before trusting a plot."
     )
-    assert len(lines) == 5  # the local and the global criteria agree: no disagreement line
+    # Every sd is 0 in this table, so the seeds are said to have changed nothing.
+    assert lines[5] == (
+        "No seed changed any score (the methods are deterministic on these rows), so the "
+        "spread is 0 and only the critical difference speaks to chance."
+    )
+    assert len(lines) == 6  # the local and the global criteria agree: no disagreement line
+
+
+def test_a_tie_goes_to_the_simpler_method():
+    # Classical MDS on Euclidean data equals PCA (Torgerson 1952; REFERENCES.md): same scores.
+    values = {"classical_mds": (0.9, 0.8, 0.2), "pca": (0.9, 0.8, 0.2), LE: (0.8, 0.7, 0.3)}
+    lines = recommend(table(values), CRITS)
+    assert lines[0].startswith("Use pca: it has the best mean rank (1.50 among 3 settings)")
+    assert lines[2].startswith(
+        "Among the best setting of each of 3 methods over 3 (dataset, criterion) blocks, it "
+        "has the same mean rank as classical_mds"
+    )
 
 
 def test_significant_lead_over_many_blocks():

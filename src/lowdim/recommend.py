@@ -42,6 +42,8 @@ __all__ = [
 TOLERANCE = 0.01
 # A bandwidth sweep whose headline score spans more than this is called sensitive.
 SENSITIVITY = 0.1
+# Families with nothing to tune, simplest first: they win ties.
+SIMPLER = ("pca", "classical_mds")
 
 
 @dataclass(frozen=True)
@@ -175,7 +177,11 @@ def summarise(scores: pd.DataFrame, criteria: Sequence[Criterion]) -> pd.DataFra
     for crit in crits:
         out[crit.label] = by_method[crit.label].mean()
         out[f"{crit.label} sd"] = by_method[crit.label].std(ddof=1).fillna(0.0)
-    return out.sort_values(["mean_rank"], kind="stable")
+    # On equal mean ranks the simpler method goes first: PCA, then classical MDS.
+    out["_simpler"] = [SIMPLER.index(f) if f in SIMPLER else len(SIMPLER) for f in out["family"]]
+    out["_rank"] = out["mean_rank"].round(9)
+    out = out.sort_values(["_rank", "_simpler"], kind="stable")
+    return out.drop(columns=["_rank", "_simpler"])
 
 
 def format_table(summary: pd.DataFrame, criteria: Sequence[Criterion]) -> str:
@@ -238,10 +244,14 @@ def _lead_sentences(
     result, family_ranks = _significance(scores, crits, list(leaders))
     rank_gap = family_ranks[rival] - family_ranks[leaders.iloc[0]]
     cd = result.critical_difference
+    position = (
+        f"it has the same mean rank as {rival}"
+        if abs(rank_gap) < 0.005
+        else f"it is {rank_gap:.2f} mean ranks ahead of {rival}"
+    )
     among = (
         f"Among the best setting of each of {len(leaders)} methods over "
-        f"{result.n_datasets} (dataset, criterion) blocks, it is {rank_gap:.2f} mean ranks "
-        f"ahead of {rival}"
+        f"{result.n_datasets} (dataset, criterion) blocks, {position}"
     )
     if result.p_value >= 0.05:
         lines.append(
@@ -323,8 +333,7 @@ def _pca_sentence(summary: pd.DataFrame, crits: Sequence[Criterion]) -> str | No
         )
     return (
         f"PCA is as good as {best} on {', '.join(n for n, _ in equal)} (a simpler method "
-        f"will do if that is what you need), but trails on {', '.join(n for n, _ in behind)} "
-        f"(most on {worst[0]}, by {worst[1]:.3f})."
+        f"will do if that is what you need), but trails on {_listing(behind)}."
     )
 
 
@@ -398,6 +407,12 @@ def _caution_sentences(
         more = f" and {len(facts.failures) - 3} more" if len(facts.failures) > 3 else ""
         count = len(facts.failures)
         lines.append(f"{count} run{'s' if count != 1 else ''} did not finish: {shown}{more}.")
+    spreads = summary[[c for c in summary.columns if c.endswith(" sd")]]
+    if len(summary) and spreads.size and bool((spreads.fillna(0.0) == 0.0).all().all()):
+        lines.append(
+            "No seed changed any score (the methods are deterministic on these rows), so the "
+            "spread is 0 and only the critical difference speaks to chance."
+        )
     if facts.subsample:
         lines.append(
             f"The file has {facts.n_samples} rows; each run used a random subsample of "

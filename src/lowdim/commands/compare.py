@@ -30,7 +30,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--quick",
         action="store_true",
-        help="a smaller sweep: 2 seeds, one fixed bandwidth beside the rules, 5 and 10 neighbours",
+        help="a smaller sweep for a first look (2 seeds, fewer bandwidths and neighbour counts)",
     )
     parser.add_argument(
         "--max-rows",
