@@ -150,7 +150,8 @@ def _params(spec: dict) -> str:
 
 def _rank_matrix(ev: Any, summary: pd.DataFrame, keys: list[str]) -> tuple[list, list]:
     methods = sorted(summary["method"].unique())
-    means = {k: rank_table(summary, k, ev.criteria[k], methods).mean(axis=0) for k in keys}
+    tables = {k: rank_table(summary, k, ev.criteria[k], methods) for k in keys}
+    means = {k: t.mean(axis=0) for k, t in tables.items()}
     overall = (
         pd.concat(means.values(), axis=1).mean(axis=1).sort_values() if means else pd.Series()
     )
@@ -164,7 +165,8 @@ def _rank_matrix(ev: Any, summary: pd.DataFrame, keys: list[str]) -> tuple[list,
             _bold(f"{overall[m]:.2f}") if overall[m] == overall.min() else f"{overall[m]:.2f}"
         )
         rows.append(cells)
-    return ["configuration", *keys, "mean over these"], rows
+    header = [f"{k} (N = {tables[k].shape[0]})" for k in keys]
+    return ["configuration", *header, "mean over these"], rows
 
 
 def _leaderboard(ev: Any) -> Raw:
@@ -172,8 +174,9 @@ def _leaderboard(ev: Any) -> Raw:
     header, rows = _rank_matrix(ev, ev.summary, keys)
     parts: list[Any] = [
         _para(
-            "Mean rank over datasets on each headline criterion (1 = best, ties averaged; a "
-            "configuration that failed on a dataset takes the last rank there). Best in bold. "
+            "Mean rank over the N datasets scored on each headline criterion (1 = best, ties "
+            "averaged; a configuration that failed on a dataset takes the last rank there). "
+            "Best in bold. "
             "Every configuration is ranked as it was run."
         ),
         _table(header, rows, cls="board"),
@@ -254,7 +257,7 @@ def _per_dataset(ev: Any) -> Raw:
         body = _join(
             [
                 _tag("summary", dataset),
-                _table(["configuration", *ev.headline], rows),
+                _table(["configuration", *keys], rows),
                 _para("Mean ± sd over seeds, rank within the dataset after #.", cls="small"),
             ]
         )

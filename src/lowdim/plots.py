@@ -478,5 +478,7 @@ def breakdown_curves(
         ax.set_title(_short(f"{dataset}{sub}: along {axis}", 52))
     fig.subplots_adjust(hspace=0.6, wspace=0.3)
     _legend(fig, axes[0, 0])
-    fig.suptitle(f"circled: first value below {fraction:.0%} of the method's own best", fontsize=8)
+    fig.suptitle(
+        f"circled: first value below {fraction:.0%} of the method's own best", fontsize=8, y=1.0
+    )
     return _save(fig, path)
