@@ -74,6 +74,7 @@ def test_failures_are_recorded_the_run_goes_on_and_a_rerun_recomputes_nothing(tm
     done = lowdim(*args, "--jobs", "2", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     assert "16 jobs, 16 run, 0 already done, 8 ok, 4 failed, 4 timeout" in done.stderr
+    assert f"report: {out / 'report.html'}" in done.stdout
     status = dict(
         ((m, d, s), (st, e))
         for m, d, s, st, e in rows(
@@ -109,9 +110,10 @@ def test_failures_are_recorded_the_run_goes_on_and_a_rerun_recomputes_nothing(tm
     stamps = {p.name: p.stat().st_mtime_ns for p in (out / "embeddings").iterdir()}
     assert len(stamps) == 8
 
-    again = lowdim(*args, cwd=tmp_path)
+    again = lowdim(*args, "--no-report", cwd=tmp_path)
     assert again.returncode == 0, again.stderr
     assert "16 jobs, 0 run, 16 already done" in again.stderr
+    assert again.stdout.startswith("mean trustworthiness (K = 10) over seeds")
     assert {p.name: p.stat().st_mtime_ns for p in (out / "embeddings").iterdir()} == stamps
     assert score_lines(out) == before
     assert rows(out, "SELECT COUNT(*) FROM runs") == [(2,)]
@@ -132,7 +134,9 @@ def test_scores_are_identical_whatever_jobs_and_backend(tmp_path):
     results = {}
     for jobs in ("1", "2"):
         out = tmp_path / f"jobs{jobs}"
-        done = lowdim("run", str(suite), "--out", str(out), "--jobs", jobs, "-q", cwd=tmp_path)
+        done = lowdim(
+            "run", str(suite), "--out", str(out), "--jobs", jobs, "-q", "--no-report", cwd=tmp_path
+        )
         assert done.returncode == 0, done.stderr
         results[jobs] = score_lines(out)
     distributed = pytest.importorskip("distributed")
@@ -154,6 +158,7 @@ def test_scores_are_identical_whatever_jobs_and_backend(tmp_path):
             "--scheduler",
             cluster.scheduler_address,
             "-q",
+            "--no-report",
             cwd=tmp_path,
         )
         assert done.returncode == 0, done.stderr
@@ -182,6 +187,7 @@ def test_sigkill_mid_run_then_resume_keeps_every_job_once(tmp_path, plugin):
     suite = write_suite(tmp_path, "killed", methods, seeds="[0, 1, 2, 3]", n=100, timeout=30)
     out = tmp_path / "out"
     args = ["run", str(suite), "--out", str(out), "--plugin", str(slow), "--jobs", "2", "-q"]
+    args.append("--no-report")
     proc = subprocess.Popen([*PYTHON, *args], cwd=tmp_path, stderr=subprocess.PIPE)
     deadline = time.monotonic() + 90
     while time.monotonic() < deadline and finished(out) < 3:

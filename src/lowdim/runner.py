@@ -192,6 +192,7 @@ def run_suite(
     retry: bool = False,
     plugins: tuple[str, ...] | list[str] = (),
     command: str | None = None,
+    report: bool = True,
 ) -> RunSummary:
     """Run every job of ``suite`` not yet in ``out_dir``'s store, record it, export the scores.
 
@@ -218,6 +219,8 @@ def run_suite(
         Plugin files that register methods; every job process loads them again.
     command : str, optional
         The command line to record; defaults to ``sys.argv``.
+    report : bool, default=True
+        Build the report (:func:`lowdim.report.build_report`) at the end.
 
     Returns
     -------
@@ -281,7 +284,7 @@ def run_suite(
             bar.close()
         store.finish_run(run_id)
         exports = tuple(store.export_scores())
-    report = _build_report(out_dir)
+    built = _build_report(out_dir) if report else None
     return RunSummary(
         out_dir=out_dir,
         run_id=run_id,
@@ -290,7 +293,7 @@ def run_suite(
         counts=dict(counts),
         seconds=time.monotonic() - tic,
         exports=exports,
-        report=report,
+        report=built,
     )
 
 

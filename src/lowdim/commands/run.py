@@ -35,6 +35,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="rerun the jobs that failed, timed out or ran out of memory",
     )
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
+    parser.add_argument(
+        "--no-report",
+        dest="report",
+        action="store_false",
+        help="skip the report: export the scores and print the leaderboard as a table",
+    )
 
 
 def leaderboard_lines(out_dir: Path, suite: Suite) -> list[str]:
@@ -91,6 +97,7 @@ def run(args: argparse.Namespace) -> int:
         retry=args.retry,
         quiet=args.quiet,
         plugins=args.plugin,
+        report=args.report,
     )
     if summary.report is None:
         print("\n".join(leaderboard_lines(out_dir, suite)))
