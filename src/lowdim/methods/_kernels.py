@@ -380,6 +380,7 @@ def rbf_from_distances(
     *,
     row_scales: np.ndarray | None = None,
     check_owner: str | None = None,
+    overwrite: bool = False,
 ):
     """RBF weights exp(-d^2 / (2 sigma^2)), or exp(-d^2 / (2 sigma_i sigma_j)) for local scales.
 
@@ -402,13 +403,18 @@ def rbf_from_distances(
         When given, the rows and the columns index the same training points (self pairs are
         those with equal indices), and a bandwidth so small that some point keeps no weight
         on any other point raises an InputError naming this estimator.
+    overwrite : bool, default=False
+        Compute the weights in the memory of a dense float64 ``sq_dist`` (saves two n x m
+        temporaries when the caller has no further use for the distances).
 
     Returns
     -------
     ndarray or sparse matrix
         The weights, shaped like ``sq_dist``.
     """
-    return _scaled_exp(sq_dist, bw, rows, cols, row_scales, check_owner, squared=True)
+    return _scaled_exp(
+        sq_dist, bw, rows, cols, row_scales, check_owner, squared=True, overwrite=overwrite
+    )
 
 
 def laplacian_from_distances(
@@ -419,22 +425,26 @@ def laplacian_from_distances(
     *,
     row_scales: np.ndarray | None = None,
     check_owner: str | None = None,
+    overwrite: bool = False,
 ):
     """Laplacian-kernel weights exp(-d / sigma), or exp(-d / sqrt(sigma_i sigma_j)).
 
     ``dist`` holds plain (not squared) distances, L1 for the Laplacian kernel as scikit-learn
     defines it; the other arguments are those of :func:`rbf_from_distances`.
     """
-    return _scaled_exp(dist, bw, rows, cols, row_scales, check_owner, squared=False)
+    return _scaled_exp(
+        dist, bw, rows, cols, row_scales, check_owner, squared=False, overwrite=overwrite
+    )
 
 
-def _scaled_exp(values, bw, rows, cols, row_scales, check_owner, *, squared):
+def _scaled_exp(values, bw, rows, cols, row_scales, check_owner, *, squared, overwrite=False):
     if scipy.sparse.issparse(values):
         coo = scipy.sparse.coo_matrix(values)
         data = _scaled_exp(
             coo.data, bw, coo.row, coo.col, row_scales, check_owner, squared=squared
         )
         return scipy.sparse.csr_matrix((data, (coo.row, coo.col)), shape=coo.shape)
+    in_place = overwrite and isinstance(values, np.ndarray) and values.dtype == np.float64
     values = np.asarray(values, dtype=np.float64)
     dense = values.ndim == 2
     if dense:
@@ -451,7 +461,12 @@ def _scaled_exp(values, bw, rows, cols, row_scales, check_owner, *, squared):
         scale = np.multiply.outer(left, right) if dense else left * right
         if not squared:
             scale = np.sqrt(scale)
-    weights = np.exp(values / (-2.0 * scale if squared else -scale))
+    factor = -2.0 * scale if squared else -scale
+    if in_place:
+        values /= factor
+        weights = np.exp(values, out=values)
+    else:
+        weights = np.exp(values / factor)
     if check_owner is not None:
         _check_weights(weights, rows, cols, bw, check_owner)
     return weights

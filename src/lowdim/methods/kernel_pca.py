@@ -205,11 +205,13 @@ default="rbf"
             row_scales = query_local_scales(self._X_fit, A, bw)
         owner = type(self).__name__ if check else None
         if name == "rbf":
-            return rbf_from_distances(
-                squared_distances(A, B), bw, rows, cols, row_scales=row_scales, check_owner=owner
-            )
-        return laplacian_from_distances(
-            manhattan_distances(A, B), bw, rows, cols, row_scales=row_scales, check_owner=owner
+            distances = squared_distances(A, B)
+            kernel = rbf_from_distances
+        else:
+            distances = manhattan_distances(A, B)
+            kernel = laplacian_from_distances
+        return kernel(
+            distances, bw, rows, cols, row_scales=row_scales, check_owner=owner, overwrite=True
         )
 
     # -- fitting -------------------------------------------------------------------------
