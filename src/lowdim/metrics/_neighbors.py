@@ -7,11 +7,15 @@ neighbour lists of the two spaces and the ranks computed from them agree.
 
 from __future__ import annotations
 
+import os
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from functools import cached_property
 from typing import NamedTuple
 
 import numpy as np
 from scipy.spatial import cKDTree
+from threadpoolctl import threadpool_info
 
 __all__ = [
     "Estimate",
@@ -23,6 +27,7 @@ __all__ = [
     "neighbour_ranks",
     "sample_rows",
     "block_rows",
+    "for_each_block",
     "EXACT_THRESHOLD",
     "SAMPLE_SIZE",
 ]
@@ -45,6 +50,27 @@ class Estimate(NamedTuple):
 
     value: float
     standard_error: float | None = None
+
+
+def worker_threads() -> int:
+    """Threads for the blocked loops: the BLAS thread limit in force (what the runner or the
+    user set with threadpoolctl), else the number of CPUs."""
+    limits = [info["num_threads"] for info in threadpool_info() if info["user_api"] == "blas"]
+    return max(1, min(limits) if limits else os.cpu_count() or 1)
+
+
+def for_each_block(work: Callable[[int], object], n_items: int, step: int) -> list:
+    """``[work(start) for start in range(0, n_items, step)]``, the blocks run in threads.
+
+    numpy releases the GIL in its loops, so blocks run side by side; each block's result
+    depends on its own rows only, so the numbers do not depend on the thread count.
+    """
+    starts = range(0, n_items, step)
+    threads = min(worker_threads(), len(starts))
+    if threads <= 1:
+        return [work(start) for start in starts]
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        return list(pool.map(work, starts))
 
 
 def block_rows(n_columns: int, per_row: int = 1, budget: int = BLOCK_ELEMENTS) -> int:
@@ -96,9 +122,11 @@ def half_sq_norms(Z: np.ndarray) -> np.ndarray:
 
 
 def _direct_sqdist(A: np.ndarray, B: np.ndarray) -> np.ndarray:
-    out = np.zeros((A.shape[0], B.shape[0]))
-    for c in range(B.shape[1]):
-        diff = np.subtract.outer(A[:, c], B[:, c])
+    out = np.subtract.outer(A[:, 0], B[:, 0])
+    out *= out
+    diff = np.empty_like(out) if B.shape[1] > 1 else None
+    for c in range(1, B.shape[1]):
+        np.subtract(A[:, c, None], B[None, :, c], out=diff)
         diff *= diff
         out += diff
     return out
@@ -134,7 +162,8 @@ def _brute_knn(Z: np.ndarray, rows: np.ndarray, k: int) -> np.ndarray:
     z_half = half_sq_norms(Z)
     out = np.empty((rows.size, k), dtype=np.intp)
     step = block_rows(n)
-    for start in range(0, rows.size, step):
+
+    def work(start: int) -> None:
         blk = rows[start : start + step]
         D = ranking_keys(Z[blk], Z, z_half)
         D[np.arange(blk.size), blk] = np.inf
@@ -148,6 +177,8 @@ def _brute_knn(Z: np.ndarray, rows: np.ndarray, k: int) -> np.ndarray:
         for r in np.flatnonzero(cand_d[:, k - 1] == cand_d[:, k]):
             res[r] = np.argsort(D[r], kind="stable")[:k]
         out[start : start + blk.size] = res
+
+    for_each_block(work, rows.size, step)
     return out
 
 
@@ -163,7 +194,8 @@ def neighbour_ranks(Z: np.ndarray, rows: np.ndarray, neighbours: np.ndarray) -> 
     out = np.empty(neighbours.shape, dtype=np.int64)
     dist_step = block_rows(n)
     count_step = block_rows(n, K, budget=BLOCK_ELEMENTS * 2)
-    for start in range(0, rows.size, dist_step):
+
+    def work(start: int) -> None:
         blk = rows[start : start + dist_step]
         D = ranking_keys(Z[blk], Z, z_half)
         D[np.arange(blk.size), blk] = np.inf  # i is nobody's rank
@@ -176,6 +208,8 @@ def neighbour_ranks(Z: np.ndarray, rows: np.ndarray, neighbours: np.ndarray) -> 
             for r, m in zip(*np.nonzero(at_most > ranks), strict=True):
                 ranks[r, m] += np.count_nonzero(sub[r, : nb[r, m]] == thresholds[r, m])
             out[start + s : start + s + sub.shape[0]] = ranks
+
+    for_each_block(work, rows.size, dist_step)
     return out
 
 

@@ -33,6 +33,7 @@ from lowdim.metrics._neighbors import (
     Estimate,
     Neighbourhoods,
     block_rows,
+    for_each_block,
     half_sq_norms,
     ranking_keys,
     sample_rows,
@@ -59,14 +60,16 @@ def qnx_from_lists(nx: np.ndarray, ny: np.ndarray) -> np.ndarray:
     """Q_NX(K) for K = 1 .. k from the k nearest lists of both spaces (``q[K - 1]``)."""
     n, k = nx.shape
     offsets = (np.arange(n, dtype=np.int64) * n)[:, None]
-    order = np.argsort(nx, axis=1)
-    # Row offsets make the row-sorted input lists one sorted array of (row, point) keys.
-    keys = (np.take_along_axis(nx, order, axis=1) + offsets).ravel()
-    query = (ny + offsets).ravel()
+    # Row offsets make row-sorted lists one sorted array of (row, point) keys; sorted
+    # needles make the search walk forward through memory.
+    order_x = np.argsort(nx, axis=1)
+    keys = (np.take_along_axis(nx, order_x, axis=1) + offsets).ravel()
+    order_y = np.argsort(ny, axis=1)
+    query = (np.take_along_axis(ny, order_y, axis=1) + offsets).ravel()
     pos = np.minimum(np.searchsorted(keys, query), keys.size - 1)
     found = keys[pos] == query
-    in_x = order.ravel()[pos] + 1
-    in_y = np.tile(np.arange(1, k + 1), n)
+    in_x = order_x.ravel()[pos] + 1
+    in_y = order_y.ravel() + 1
     counts = np.bincount(np.maximum(in_x, in_y)[found], minlength=k + 1)[1:]
     return np.cumsum(counts) / (n * np.arange(1, k + 1))
 
@@ -117,10 +120,11 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
     X, Y, n, rows = ctx.X, ctx.Y, ctx.n, ctx.rows
     x_half, y_half = half_sq_norms(X), half_sq_norms(Y)
     K = np.arange(1, n - 1)
-    total = np.zeros(n, dtype=np.int64)
+    w = 1.0 / K
     row_auc = np.empty(rows.size)
     step = block_rows(n, per_row=12)
-    for start in range(0, rows.size, step):
+
+    def work(start: int) -> np.ndarray:
         blk = rows[start : start + step]
         b = blk.size
         worst = None
@@ -131,11 +135,11 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
             worst = ranks if worst is None else np.maximum(worst, ranks)
         hist = np.bincount((worst + (np.arange(b) * n)[:, None]).ravel(), minlength=b * n)
         hist = hist.reshape(b, n)
-        total += hist.sum(axis=0)
         q_rows = np.cumsum(hist[:, 1 : n - 1], axis=1) / K
-        r_rows = rnx_from_qnx(q_rows, n, K)
-        w = 1.0 / K
-        row_auc[start : start + b] = (r_rows * w).sum(axis=1) / w.sum()
+        row_auc[start : start + b] = (rnx_from_qnx(q_rows, n, K) * w).sum(axis=1) / w.sum()
+        return hist.sum(axis=0)
+
+    total = np.sum(for_each_block(work, rows.size, step), axis=0)
     q = np.cumsum(total[1:]) / (rows.size * np.arange(1, n))
     ctx.cache["coranking"] = (q, row_auc)
     return q, row_auc

@@ -25,6 +25,7 @@ from lowdim.metrics._neighbors import (
     Neighbourhoods,
     block_rows,
     block_sqdist,
+    for_each_block,
     sample_rows,
 )
 from lowdim.metrics._registry import register_metric
@@ -69,7 +70,8 @@ def silhouette_estimate(
     query = np.arange(n) if rows is None else rows
     values = np.empty(query.size)
     step = block_rows(n)
-    for start in range(0, query.size, step):
+
+    def work(start: int) -> None:
         blk = query[start : start + step]
         D = np.sqrt(block_sqdist(Y[blk], grouped))
         D[np.arange(blk.size), where[blk]] = 0.0  # exactly, whatever the rounding
@@ -83,6 +85,8 @@ def silhouette_estimate(
             s = (inter - intra) / np.maximum(intra, inter)
         s[(sizes[own] == 1) | ~np.isfinite(s)] = 0.0
         values[start : start + blk.size] = s
+
+    for_each_block(work, query.size, step)
     mean = float(values.mean())
     if rows is None:
         return Estimate(mean)
