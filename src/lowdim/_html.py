@@ -145,7 +145,7 @@ def _int(value: Any) -> str:
 
 
 def _params(spec: dict) -> str:
-    return ", ".join(f"{k}={v}" for k, v in spec.items()) or "defaults"
+    return ", ".join(f"{k}={v}" for k, v in spec.items() if v is not None) or "defaults"
 
 
 def _rank_matrix(ev: Any, summary: pd.DataFrame, keys: list[str]) -> tuple[list, list]:

@@ -31,12 +31,20 @@ def statistics_reading(key: str, entry: dict, alpha: float = 0.05) -> list[str]:
         ]
     ranks = entry["mean_ranks"]
     best = min(ranks, key=ranks.get)
+    f_text = (
+        "infinite (every dataset ranks them in the same order)"
+        if entry["iman_davenport_f"] is None and entry["iman_davenport_p"] == 0.0
+        else f"{fmt(entry['iman_davenport_f'])} (p {_p(entry['iman_davenport_p'])})"
+    )
     out = [
         f"{key}, over {n} datasets and {k} configurations: Friedman chi2 = "
-        f"{entry['friedman_chi2']:.2f} (p {_p(entry['p_value'])}), Iman-Davenport F = "
-        f"{fmt(entry['iman_davenport_f'])} (p {_p(entry['iman_davenport_p'])})."
+        f"{entry['friedman_chi2']:.2f} (p {_p(entry['p_value'])}), Iman-Davenport F = {f_text}."
     ]
-    if entry["p_value"] >= alpha:
+    # Iman & Davenport's F is the less conservative form (Demšar 2006 recommends it).
+    p_test = (
+        entry["iman_davenport_p"] if entry["iman_davenport_p"] is not None else entry["p_value"]
+    )
+    if p_test >= alpha:
         out.append(
             f"At the {alpha:g} level the rankings are consistent with chance: no method can be "
             f"called better on {key}, whatever the order of the mean ranks (best: {best}, "
@@ -61,6 +69,8 @@ def statistics_reading(key: str, entry: dict, alpha: float = 0.05) -> list[str]:
             "Yet no single pair is more than CD apart: the overall difference cannot be "
             "pinned on any two configurations with this many datasets."
         )
+    if n < 5:
+        out.append(f"With only {n} datasets, treat this as a hint and add datasets.")
     return out
 
 
@@ -90,18 +100,22 @@ def method_profiles(
         if fam in ranks:
             r = ranks[fam].dropna().sort_values()
             k = ranks.shape[1]
-            if len(r):
+            if len(r) and r.min() == r.max():
+                lines.append(
+                    f"Rank {r.min():g} of {k} on {selection} on every dataset "
+                    f"({_names(r.index.tolist())}: {_vals(values, r.index.tolist(), fam)})."
+                )
+            elif len(r):
                 best = r[r == r.min()].index.tolist()
                 worst = r[r == r.max()].index.tolist()
                 lines.append(
-                    f"Helps most on {_names(best)} (rank {r.min():g} of {k} on {selection}, "
+                    f"Best results on {_names(best)} (rank {r.min():g} of {k} on {selection}, "
                     f"{_vals(values, best, fam)})."
                 )
-                if r.max() > r.min():
-                    lines.append(
-                        f"Weakest on {_names(worst)} (rank {r.max():g} of {k}, "
-                        f"{_vals(values, worst, fam)})."
-                    )
+                lines.append(
+                    f"Weakest on {_names(worst)} (rank {r.max():g} of {k}, "
+                    f"{_vals(values, worst, fam)})."
+                )
         configs = [c for c, f in family_of.items() if f == fam]
         lines += _breakdown_lines(breakdown, configs, selection, fraction)
         lines += _failure_lines(failures, fam)

@@ -164,12 +164,21 @@ def embedding_gallery(panels: list[dict], path: Path) -> Path | None:
         for spine in ax.spines.values():
             spine.set_color("#bbbbbb")
     for j, m in enumerate(methods):
-        axes[0, j].set_title(_short(m, 28), fontsize=8)
+        axes[0, j].set_title(_wrap(m, 24), fontsize=7)
     for i, d in enumerate(datasets):
         axes[i, 0].set_axis_on()
-        axes[i, 0].set_ylabel(_short(d, 24), fontsize=8)
+        axes[i, 0].set_ylabel(_wrap(d, 24), fontsize=7)
     fig.subplots_adjust(hspace=0.08, wspace=0.08)
     return _save(fig, path)
+
+
+def _wrap(text: str, width: int) -> str:
+    """Break a long label before its parameters, then shorten each line to ``width``."""
+    text = str(text)
+    if len(text) > width and "(" in text[1:]:
+        head, _, tail = text.partition("(")
+        return f"{_short(head, width)}\n{_short('(' + tail, width)}"
+    return _short(text, width)
 
 
 def _short(text: str, width: int) -> str:
@@ -201,7 +210,7 @@ def criterion_heatmap(
     ax.set_xlabel("")
     ax.set_ylabel("")
     ax.set_xticklabels(
-        [_short(t.get_text(), 26) for t in ax.get_xticklabels()], rotation=35, ha="right"
+        [_wrap(t.get_text(), 24) for t in ax.get_xticklabels()], rotation=30, ha="right"
     )
     ax.set_title(f"{criterion}: mean over seeds (lighter is better)")
     return _save(fig, path)
@@ -288,7 +297,7 @@ def critical_difference_diagram(
         ax.plot(rank, row, marker="o", color=colour, markeredgecolor=_EDGE, markersize=6)
         ax.text(rank + cd / 2 + 0.05, row, f"{rank:.2f}", va="center", fontsize=7)
     ax.set_yticks(range(k))
-    ax.set_yticklabels([_short(n, 32) for n, _ in items], fontsize=8)
+    ax.set_yticklabels([_short(n, 44) for n, _ in items], fontsize=8)
     ax.invert_yaxis()
     lo = min(1.0, items[0][1] - cd / 2) - 0.2
     hi = max(float(k), items[-1][1] + cd / 2) + 0.5

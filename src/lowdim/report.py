@@ -21,6 +21,7 @@ import json
 import math
 import os
 import tempfile
+import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -82,7 +83,8 @@ def gather_evidence(
     """Compute tables, statistics and curves from a loaded store.
 
     ``selection`` names the criterion that picks each method's best configuration in the
-    tuned view (default: the first headline criterion, ``rnx_auc`` when present).
+    tuned view (default: the suite's ``headline`` criterion when it sets one, else the first
+    headline criterion, ``rnx_auc`` when present).
     """
     cache = cache or DatasetCache()
     table = criterion_table(results)
@@ -95,6 +97,10 @@ def gather_evidence(
             f"{str(results.out_dir)!r}{suggestion(selection, criteria)}; give one of "
             f"{', '.join(criteria) or '(none)'}."
         )
+    if selection is None:
+        selection = _suite_headline(results, criteria)
+        if selection and selection not in headline:
+            headline.insert(0, selection)
     if selection is None:
         selection = headline[0] if headline else next(iter(criteria), "")
     board = leaderboard(summary, criteria)
@@ -130,6 +136,25 @@ def gather_evidence(
         failures=failures.reset_index(drop=True),
         rnx=rnx_curves(table),
     )
+
+
+def _suite_headline(results: Results, criteria: dict[str, bool]) -> str | None:
+    """The criterion key named by the latest suite's ``headline`` (a K criterion at its middle
+    K), or None when the suite names none that was scored."""
+    runs = results.runs
+    if runs.empty or "suite_text" not in runs:
+        return None
+    try:
+        suite = tomllib.loads(str(runs.sort_values("run_id")["suite_text"].iloc[-1]))
+    except tomllib.TOMLDecodeError:
+        return None
+    name = suite.get("suite", {}).get("headline")
+    if not isinstance(name, str):
+        return None
+    if name in criteria:
+        return name
+    chosen = headline_criteria({k: v for k, v in criteria.items() if k.split("@")[0] == name})
+    return chosen[0] if chosen else None
 
 
 def _draw_figures(ev: Evidence, folder: Path, cache: DatasetCache) -> None:

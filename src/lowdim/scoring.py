@@ -373,10 +373,13 @@ def criterion_statistics(
 def significant_pairs(entry: dict) -> list[tuple[str, str, float]]:
     """Pairs whose mean ranks differ by more than the critical difference, largest first.
 
-    Following Demšar (2006), the post-hoc comparison is read only when the Friedman test
-    rejects at the same level; otherwise this returns no pairs.
+    Following Demšar (2006), the post-hoc comparison is read only when the omnibus test
+    rejects at 0.05 (Iman-Davenport's F, the less conservative form, when it could be computed;
+    Friedman's chi-square otherwise); otherwise this returns no pairs.
     """
-    cd, p = entry.get("critical_difference"), entry.get("p_value")
+    cd = entry.get("critical_difference")
+    p = entry.get("iman_davenport_p")
+    p = entry.get("p_value") if p is None else p
     if cd is None or p is None or p >= 0.05:
         return []
     ranks = entry["mean_ranks"]
