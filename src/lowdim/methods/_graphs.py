@@ -66,24 +66,28 @@ class DistanceGraph(NamedTuple):
     radii: np.ndarray
 
 
-def knn_distance_graph(X: np.ndarray, n_neighbors: int) -> DistanceGraph:
+def knn_distance_graph(
+    X: np.ndarray, n_neighbors: int, *, n_jobs: int | None = None
+) -> DistanceGraph:
     """Return the directed k-nearest-neighbour distance graph of the rows of ``X``.
 
     A kd-tree or ball tree is chosen by scikit-learn for the data; the query excludes each
-    point from its own list.
+    point from its own list. ``n_jobs`` parallel workers run the search (and later queries).
     """
     n = X.shape[0]
-    index = NearestNeighbors(n_neighbors=n_neighbors).fit(X)
+    index = NearestNeighbors(n_neighbors=n_neighbors, n_jobs=n_jobs).fit(X)
     dist, ind = index.kneighbors(return_distance=True)
     indptr = np.arange(0, n * n_neighbors + 1, n_neighbors)
     graph = scipy.sparse.csr_matrix((dist.ravel(), ind.ravel(), indptr), shape=(n, n))
     return DistanceGraph(graph, index, dist[:, -1].copy())
 
 
-def epsilon_distance_graph(X: np.ndarray, radius: float) -> DistanceGraph:
+def epsilon_distance_graph(
+    X: np.ndarray, radius: float, *, n_jobs: int | None = None
+) -> DistanceGraph:
     """Return the distance graph joining every pair of rows closer than ``radius``."""
     n = X.shape[0]
-    index = NearestNeighbors(radius=radius).fit(X)
+    index = NearestNeighbors(radius=radius, n_jobs=n_jobs).fit(X)
     graph = index.radius_neighbors_graph(mode="distance", sort_results=True)
     return DistanceGraph(graph.tocsr(), index, np.full(n, float(radius)))
 

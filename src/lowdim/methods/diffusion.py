@@ -90,6 +90,8 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         n <= 600 and Lanczos above.
     random_state : int, RandomState or None, default=None
         Seeds the eigen-solver's start vectors and the bandwidth rules' samples.
+    n_jobs : int or None, default=None
+        Parallel workers for the neighbour searches (None: one, -1: every core).
 
     Attributes
     ----------
@@ -150,6 +152,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         "on_disconnected": [Options(ON_DISCONNECTED)],
         "eigen_solver": [Options(LAPLACIAN_SOLVERS)],
         "random_state": RANDOM_STATE,
+        "n_jobs": [NONE, Interval(int, -1, None)],
     }
     _reference = "Coifman & Lafon, Applied and Computational Harmonic Analysis 21, 2006"
 
@@ -164,6 +167,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         on_disconnected: str = "warn",
         eigen_solver: str = "auto",
         random_state=None,
+        n_jobs: int | None = None,
     ):
         self.n_components = n_components
         self.n_neighbors = n_neighbors
@@ -173,6 +177,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         self.on_disconnected = on_disconnected
         self.eigen_solver = eigen_solver
         self.random_state = random_state
+        self.n_jobs = n_jobs
 
     # -- fitting -------------------------------------------------------------------------
 
@@ -185,7 +190,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
             bw = resolve_bandwidth(rule, X, random_state=rng, owner=owner)
             K = rbf_from_distances(squared_distances(X), bw, check_owner=owner)
             return K, None, bw
-        graph = knn_distance_graph(X, int(self.n_neighbors))
+        graph = knn_distance_graph(X, int(self.n_neighbors), n_jobs=self.n_jobs)
         D = graph.distances
         knn = D.data.reshape(n, -1)
         bw = resolve_bandwidth(rule, X, random_state=rng, knn_distances=knn, owner=owner)

@@ -90,6 +90,8 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         then dense for small n); ``"auto"`` is dense up to 600 points and AMG above.
     random_state : int, RandomState or None, default=None
         Seeds the eigen-solver's start vectors and the bandwidth rules' samples.
+    n_jobs : int or None, default=None
+        Parallel workers for the neighbour searches (None: one, -1: every core).
 
     Attributes
     ----------
@@ -162,6 +164,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         "on_disconnected": [Options(ON_DISCONNECTED)],
         "eigen_solver": [Options(LAPLACIAN_SOLVERS)],
         "random_state": RANDOM_STATE,
+        "n_jobs": [NONE, Interval(int, -1, None)],
     }
     _reference = "Belkin & Niyogi, Neural Computation 15, 2003"
 
@@ -178,6 +181,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         on_disconnected: str = "warn",
         eigen_solver: str = "auto",
         random_state=None,
+        n_jobs: int | None = None,
     ):
         self.n_components = n_components
         self.graph = graph
@@ -189,6 +193,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         self.on_disconnected = on_disconnected
         self.eigen_solver = eigen_solver
         self.random_state = random_state
+        self.n_jobs = n_jobs
 
     # -- fitting -------------------------------------------------------------------------
 
@@ -201,10 +206,10 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         n = X.shape[0]
         kind = self._graph_kind()
         if kind == "epsilon":
-            graph = epsilon_distance_graph(X, float(self.radius))
+            graph = epsilon_distance_graph(X, float(self.radius), n_jobs=self.n_jobs)
             knn = None
         else:
-            graph = knn_distance_graph(X, min(self.n_neighbors_, n - 1))
+            graph = knn_distance_graph(X, min(self.n_neighbors_, n - 1), n_jobs=self.n_jobs)
             k = graph.distances.indptr[1]
             knn = graph.distances.data.reshape(n, k)
         D = graph.distances
