@@ -25,6 +25,7 @@ import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 __all__ = [
@@ -256,7 +257,8 @@ def _lead_sentences(
     if result.p_value >= 0.05:
         lines.append(
             f"{among}, but the Friedman test finds no difference among the methods "
-            f"(p = {result.p_value:.2g}), so the lead is not significant."
+            f"(p = {result.p_value:.2g}; the Nemenyi critical difference would be {cd:.2f}), "
+            "so the lead is not significant."
         )
     elif rank_gap > cd:
         lines.append(
@@ -317,7 +319,6 @@ def _pca_sentence(summary: pd.DataFrame, crits: Sequence[Criterion]) -> str | No
     if summary.loc[best, "family"] == "pca":
         return "PCA itself ranks first: nothing more complex is needed."
     gaps = _gaps(summary, crits, pca, best)
-    equal = gaps["ahead"] + gaps["level"]
     behind = [(name, -gap) for name, gap in gaps["behind"]]
     if not behind:
         return (
@@ -326,14 +327,20 @@ def _pca_sentence(summary: pd.DataFrame, crits: Sequence[Criterion]) -> str | No
             "neighbour count to choose."
         )
     worst = max(behind, key=lambda t: t[1])
-    if not equal:
+    if not gaps["ahead"] and not gaps["level"]:
         return (
             f"PCA trails on every criterion (most on {worst[0]}, by {worst[1]:.3f}): a linear "
             "projection misses this structure, so a simpler method will not do."
         )
+    parts = []
+    if gaps["ahead"]:
+        parts.append(f"better than {best} on {_listing(gaps['ahead'])}")
+    if gaps["level"]:
+        names = ", ".join(n for n, _ in gaps["level"])
+        parts.append(f"as good on {names}" if parts else f"as good as {best} on {names}")
     return (
-        f"PCA is as good as {best} on {', '.join(n for n, _ in equal)} (a simpler method "
-        f"will do if that is what you need), but trails on {_listing(behind)}."
+        f"PCA is {' and '.join(parts)} (a simpler method will do if that is what you need), "
+        f"but trails on {_listing(behind)}."
     )
 
 
@@ -362,24 +369,45 @@ def _disagreement_sentence(summary: pd.DataFrame, crits: Sequence[Criterion]) ->
     )
 
 
-def _sensitivity_sentences(summary: pd.DataFrame, crit: Criterion) -> list[str]:
+def _sensitivity_sentences(summary: pd.DataFrame, crits: Sequence[Criterion]) -> list[str]:
+    """One line per family whose bandwidth sweep moves some criterion by more than
+    SENSITIVITY, naming the criterion that moves most and what the rules picked."""
     lines = []
     for family, table in summary.groupby("family", sort=False):
         swept = [m for m in table.index if "bandwidth" in parse_label(m)[1]]
         if len(swept) < 2:
             continue
-        col = table.loc[swept, crit.label].dropna()
-        if col.empty or col.max() - col.min() <= SENSITIVITY:
+        widest = None
+        for crit in crits:
+            col = table.loc[swept, crit.label].dropna()
+            if len(col) >= 2 and (widest is None or np.ptp(col) > np.ptp(widest[1])):
+                widest = (crit, col)
+        if widest is None or np.ptp(widest[1]) <= SENSITIVITY:
             continue
+        crit, col = widest
         best = col.idxmax() if crit.higher_is_better else col.idxmin()
         worst = col.idxmin() if crit.higher_is_better else col.idxmax()
+        rules = [
+            f"{parse_label(m)[1]['bandwidth']} {col[m]:.3f}"
+            for m in col.index
+            if not _is_number(parse_label(m)[1]["bandwidth"])
+        ]
+        picks = f"; the rules give {', '.join(rules)}" if rules else ""
         lines.append(
             f"{family} is sensitive to the bandwidth: {crit.label} ranges from "
             f"{col[worst]:.3f} (bandwidth={parse_label(worst)[1]['bandwidth']}) to "
             f"{col[best]:.3f} (bandwidth={parse_label(best)[1]['bandwidth']}) over the "
-            f"{len(col)} bandwidths tried; check the pick before trusting a plot."
+            f"{len(col)} bandwidths tried{picks}; check the pick before trusting a plot."
         )
     return lines
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def _caution_sentences(
@@ -401,7 +429,7 @@ def _caution_sentences(
             "use more neighbours."
         )
     if crits:
-        lines += _sensitivity_sentences(summary, crits[0])
+        lines += _sensitivity_sentences(summary, crits)
     if facts.failures:
         shown = "; ".join(f"{m} ({s}: {msg})" for m, s, msg in facts.failures[:3])
         more = f" and {len(facts.failures) - 3} more" if len(facts.failures) > 3 else ""
