@@ -16,11 +16,12 @@ def test_lists_every_criterion_with_direction_needs_k_and_source(capsys):
 
 
 def test_one_criterion_shows_what_it_needs_and_how_it_scales(capsys):
-    assert main(["metrics", "silhouette", "stress", "fit_seconds"]) == 0
+    assert main(["metrics", "silhouette", "stress", "rnx_auc", "fit_seconds"]) == 0
     out = capsys.readouterr().out
     assert out.startswith("silhouette  (higher is better)")
     assert "needs: class labels" in out and "exact up to n = 10000" in out
-    assert "stress  (lower is better)" in out and "all pairs up to n = 3000" in out
+    assert "stress  (lower is better)" in out and "all pairs up to n = 2000" in out
+    assert "exact up to n = 4000" in out
     assert "recorded by the runner" in out
     assert "trustworthiness" not in out
 

@@ -69,11 +69,14 @@ def test_sampled_mode_reports_the_sample_and_stays_within_its_errors():
         Y,
         metrics=["trustworthiness", "continuity", "rnx_auc", "qnx"],
         exact_threshold=300,
+        full_rank_threshold=300,
         sample_size=250,
         random_state=3,
     )
     assert sampled.sample_size == 250
-    assert any("estimated from 250 random query points of 900" in n for n in sampled.notes)
+    notes = " | ".join(sampled.notes)
+    assert "trustworthiness, continuity estimated from 250 random query points of 900" in notes
+    assert "rnx_auc estimated from 250 random query points of 900" in notes
     for name in ("trustworthiness", "continuity"):
         for k in (5, 10, 30):
             se = sampled.standard_errors[(name, k)]

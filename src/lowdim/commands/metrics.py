@@ -5,8 +5,8 @@ from __future__ import annotations
 import argparse
 
 from lowdim.metrics import get_metric, metric_names
-from lowdim.metrics._batch import PAIRWISE, SAMPLED
-from lowdim.metrics._neighbors import EXACT_THRESHOLD, SAMPLE_SIZE
+from lowdim.metrics._batch import FULL_RANK, PAIRWISE, SAMPLED
+from lowdim.metrics._neighbors import EXACT_THRESHOLD, FULL_RANK_THRESHOLD, SAMPLE_SIZE
 from lowdim.metrics.distances import PAIR_POINTS
 
 HELP = "list the quality criteria: which way is better, what data each needs, K, and its source"
@@ -28,9 +28,10 @@ def describe_metric(name: str) -> list[str]:
     else:
         lines.append(f"    needs: {_NEEDS.get(metric.needs, metric.needs)}")
     lines.append(f"    K: {metric.k_rule or 'takes K'}" if metric.uses_k else "    K: none")
-    if name in SAMPLED:
+    if name in SAMPLED or name in FULL_RANK:
+        threshold = EXACT_THRESHOLD if name in SAMPLED else FULL_RANK_THRESHOLD
         lines.append(
-            f"    size: exact up to n = {EXACT_THRESHOLD}; above, from {SAMPLE_SIZE} random "
+            f"    size: exact up to n = {threshold}; above, from {SAMPLE_SIZE} random "
             "query points, with a standard error"
         )
     elif name in PAIRWISE:

@@ -14,6 +14,7 @@ from lowdim.errors import InputError
 from lowdim.metrics._checks import check_k, check_labels, check_pair, check_truth
 from lowdim.metrics._neighbors import (
     EXACT_THRESHOLD,
+    FULL_RANK_THRESHOLD,
     SAMPLE_SIZE,
     Estimate,
     Neighbourhoods,
@@ -42,8 +43,10 @@ __all__ = ["Scores", "score_embedding", "RNX_CURVE_MAX"]
 
 # The R_NX(K) curve is reported on a log grid of K up to this (or n - 2).
 RNX_CURVE_MAX = 128
-# Criteria estimated from query rows above the exact threshold.
-SAMPLED = ("trustworthiness", "continuity", "rnx_auc", "silhouette")
+# Criteria estimated from query rows above the exact threshold, and the one above the
+# full-rank threshold.
+SAMPLED = ("trustworthiness", "continuity", "silhouette")
+FULL_RANK = ("rnx_auc",)
 # Criteria computed from all pairs of a random subset above ``pair_points``.
 PAIRWISE = ("distance_spearman", "stress", "truth_spearman")
 
@@ -223,6 +226,7 @@ def score_embedding(
     truth: ArrayLike | None = None,
     random_state: int | None = 0,
     exact_threshold: int = EXACT_THRESHOLD,
+    full_rank_threshold: int = FULL_RANK_THRESHOLD,
     sample_size: int = SAMPLE_SIZE,
     pair_points: int = PAIR_POINTS,
     rnx_curve_max: int = RNX_CURVE_MAX,
@@ -252,12 +256,14 @@ def score_embedding(
     random_state : int or None, default=0
         Seed for the sampled query points and pair subsets.
     exact_threshold : int, default=10000
-        Trustworthiness, continuity, rnx_auc and silhouette are exact up to this n; above it
-        they are estimated from ``sample_size`` random query points against all points, with
-        standard errors.
+        Trustworthiness, continuity and silhouette are exact up to this n; above it they are
+        estimated from ``sample_size`` random query points against all points, with standard
+        errors.
+    full_rank_threshold : int, default=4000
+        The same for rnx_auc, which needs every query point's full ranks in both spaces.
     sample_size : int, default=2000
-        Query points used above ``exact_threshold``.
-    pair_points : int, default=3000
+        Query points used above the thresholds.
+    pair_points : int, default=2000
         distance_spearman, stress and truth_spearman use all pairs up to this n, else all
         pairs among this many random points.
     rnx_curve_max : int, default=128
@@ -292,10 +298,12 @@ def score_embedding(
         per_metric["rnx"] = sorted(set(per_metric["rnx"]) | set(grid))
     listed = [k for name, values in per_metric.items() if name in _BUILT_IN for k in values]
     rows = sample_rows(n, exact_threshold, sample_size, random_state)
+    full_rows = sample_rows(n, full_rank_threshold, sample_size, random_state)
+    ctx = Neighbourhoods(X, Y, k_lists=max(listed, default=1), rows=rows, full_rows=full_rows)
     job = _Job(
         X=X,
         Y=Y,
-        ctx=Neighbourhoods(X, Y, k_lists=max(listed, default=1), rows=rows),
+        ctx=ctx,
         labels=coded,
         truth=T,
         subset=pair_subset(n, pair_points, random_state),
@@ -321,28 +329,31 @@ def score_embedding(
                 scores.standard_errors[(metric.name, k)] = estimate.standard_error
     for why, names in skipped.items():
         notes.append(f"{', '.join(names)} skipped: {why}")
-    _note_sampling(scores, rows, job.subset, n, exact_threshold, pair_points, random_state)
+    done = {name for name, _, _ in scores.values}
+    for group, query, threshold in (
+        (SAMPLED, rows, exact_threshold),
+        (FULL_RANK, full_rows, full_rank_threshold),
+    ):
+        sampled = [name for name in group if name in done]
+        if query is not None and sampled:
+            scores.sample_size = int(query.size)
+            notes.append(
+                f"{', '.join(sampled)} estimated from {query.size} random query points of {n} "
+                f"(n is above the exact threshold {threshold}; seed {random_state}); "
+                "standard errors are in standard_errors"
+            )
+    _note_pairs(scores, done, job.subset, n, pair_points, random_state)
     return scores
 
 
-def _note_sampling(
+def _note_pairs(
     scores: Scores,
-    rows: np.ndarray | None,
+    done: set[str],
     subset: np.ndarray | None,
     n: int,
-    exact_threshold: int,
     pair_points: int,
     random_state: int | None,
 ) -> None:
-    done = {name for name, _, _ in scores.values}
-    sampled = [name for name in SAMPLED if name in done]
-    if rows is not None and sampled:
-        scores.sample_size = int(rows.size)
-        scores.notes.append(
-            f"{', '.join(sampled)} estimated from {rows.size} random query points of {n} "
-            f"(n is above the exact threshold {exact_threshold}; seed {random_state}); "
-            "standard errors are in standard_errors"
-        )
     paired = [name for name in PAIRWISE if name in done]
     if subset is not None and paired:
         scores.notes.append(

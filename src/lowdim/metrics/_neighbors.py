@@ -29,6 +29,7 @@ __all__ = [
     "block_rows",
     "for_each_block",
     "EXACT_THRESHOLD",
+    "FULL_RANK_THRESHOLD",
     "SAMPLE_SIZE",
 ]
 
@@ -39,9 +40,11 @@ DIRECT_MAX_DIM = 4
 TREE_MAX_DIM = 15
 # Elements of one working block (float64: 32 MB).
 BLOCK_ELEMENTS = 1 << 22
-# Rank-based criteria are exact up to this many points and use this many random query
-# points above it.
+# Rank-based criteria are exact up to this many points and use SAMPLE_SIZE random query
+# points above it; criteria that need every point's full ranks (rnx_auc: two sorts of n
+# per query point) up to FULL_RANK_THRESHOLD.
 EXACT_THRESHOLD = 10_000
+FULL_RANK_THRESHOLD = 4_000
 SAMPLE_SIZE = 2_000
 
 
@@ -267,10 +270,18 @@ class Neighbourhoods:
         Length of the neighbour lists kept for both spaces (the largest K any criterion needs).
     rows : ndarray or None
         Query rows for the rank-based criteria (None: all rows, exact).
+    full_rows : ndarray or None
+        Query rows for the criteria that need full ranks (None: all rows, exact).
     """
 
     def __init__(
-        self, X: np.ndarray, Y: np.ndarray, *, k_lists: int, rows: np.ndarray | None = None
+        self,
+        X: np.ndarray,
+        Y: np.ndarray,
+        *,
+        k_lists: int,
+        rows: np.ndarray | None = None,
+        full_rows: np.ndarray | None = None,
     ) -> None:
         self.X = X
         self.Y = Y
@@ -278,6 +289,8 @@ class Neighbourhoods:
         self.k_lists = k_lists
         self.sampled = rows is not None
         self.rows = np.arange(self.n) if rows is None else rows
+        self.full_sampled = full_rows is not None
+        self.full_rows = np.arange(self.n) if full_rows is None else full_rows
         self._ranks: dict[str, np.ndarray] = {}
         # Results other criteria share (e.g. the full co-ranking), by name.
         self.cache: dict[str, object] = {}
@@ -307,14 +320,14 @@ class Neighbourhoods:
             self._ranks[space] = have
         return have[:, :k]
 
-    def mean_and_error(self, per_row: np.ndarray) -> Estimate:
+    def mean_and_error(self, per_row: np.ndarray, *, sampled: bool) -> Estimate:
         """Mean of a per-query-row quantity; with its standard error when rows are sampled.
 
         The error includes the finite-population correction for sampling without
         replacement (Cochran, Sampling Techniques, 3rd ed., 1977, eq. 2.12).
         """
         mean = float(per_row.mean())
-        if not self.sampled:
+        if not sampled:
             return Estimate(mean)
         m = per_row.size
         if m < 2:

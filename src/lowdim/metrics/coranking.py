@@ -28,7 +28,7 @@ from numpy.typing import ArrayLike
 
 from lowdim.metrics._checks import check_k, check_pair
 from lowdim.metrics._neighbors import (
-    EXACT_THRESHOLD,
+    FULL_RANK_THRESHOLD,
     SAMPLE_SIZE,
     Estimate,
     Neighbourhoods,
@@ -117,7 +117,7 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
     """
     if "coranking" in ctx.cache:
         return ctx.cache["coranking"]
-    X, Y, n, rows = ctx.X, ctx.Y, ctx.n, ctx.rows
+    X, Y, n, rows = ctx.X, ctx.Y, ctx.n, ctx.full_rows
     x_half, y_half = half_sq_norms(X), half_sq_norms(Y)
     K = np.arange(1, n - 1)
     w = 1.0 / K
@@ -151,9 +151,9 @@ def rnx_auc_estimate(ctx: Neighbourhoods) -> Estimate:
     n = ctx.n
     K = np.arange(1, n - 1)
     value = auc_from_rnx(rnx_from_qnx(q[: n - 2], n, K))
-    if not ctx.sampled:
+    if not ctx.full_sampled:
         return Estimate(value)
-    return Estimate(value, ctx.mean_and_error(row_auc).standard_error)
+    return Estimate(value, ctx.mean_and_error(row_auc, sampled=True).standard_error)
 
 
 def _q_at(X: ArrayLike, Y: ArrayLike, k: int | None, owner: str, high: int, rule: str):
@@ -263,14 +263,15 @@ def rnx_auc(
     k: int | None = None,
     labels: ArrayLike | None = None,
     truth: ArrayLike | None = None,
-    exact_threshold: int = EXACT_THRESHOLD,
+    exact_threshold: int = FULL_RANK_THRESHOLD,
     sample_size: int = SAMPLE_SIZE,
     random_state: int | None = 0,
 ) -> float:
     """Area under the R_NX(K) curve with log-K weighting (Lee, Peluffo-Ordonez & Verleysen).
 
     AUC = sum_K R_NX(K) / K / sum_K 1 / K over K = 1 .. n - 2. Needs full ranks: exact for n
-    up to ``exact_threshold``, estimated from ``sample_size`` random query points above it.
+    up to ``exact_threshold`` (default 4000, since each query point costs two sorts of all
+    n), estimated from ``sample_size`` random query points (against all points) above it.
 
     References
     ----------
@@ -279,4 +280,4 @@ def rnx_auc(
     """
     X, Y = check_pair(X, Y, "rnx_auc")
     rows = sample_rows(X.shape[0], exact_threshold, sample_size, random_state)
-    return rnx_auc_estimate(Neighbourhoods(X, Y, k_lists=1, rows=rows)).value
+    return rnx_auc_estimate(Neighbourhoods(X, Y, k_lists=1, full_rows=rows)).value

@@ -1,7 +1,7 @@
 """Global criteria on all pairwise distances: Spearman correlation and scale-invariant stress.
 
 Both look at every pair of points, so for large n they use all pairs among a random subset
-of ``pair_points`` points (4.5 million pairs at the default 3,000).
+of ``pair_points`` points (2 million pairs at the default 2,000).
 
 References
 ----------
@@ -37,7 +37,7 @@ __all__ = [
 ]
 
 # Above this many points the pair criteria use all pairs among this many random points.
-PAIR_POINTS = 3_000
+PAIR_POINTS = 2_000
 
 
 def pair_subset(n: int, pair_points: int, random_state: int | None) -> np.ndarray | None:

@@ -42,10 +42,14 @@ def knn_accuracy_at(ctx: Neighbourhoods, codes: np.ndarray, ks: Iterable[int]) -
     out = {}
     for k in ks:
         votes = codes[ctx.ny[:, :k]]
-        # support[i, m]: how many of i's k neighbours share the label of its m-th neighbour;
-        # argmax takes the first, i.e. nearest, of the best supported.
-        support = (votes[:, :, None] == votes[:, None, :]).sum(axis=2)
-        predicted = votes[np.arange(ctx.n), support.argmax(axis=1)]
+        predicted = np.empty(ctx.n, dtype=codes.dtype)
+        step = block_rows(k, k)
+        for start in range(0, ctx.n, step):
+            v = votes[start : start + step]
+            # support[i, m]: how many of i's k neighbours share the label of its m-th
+            # neighbour; argmax takes the first, i.e. nearest, of the best supported.
+            support = np.count_nonzero(v[:, :, None] == v[:, None, :], axis=2)
+            predicted[start : start + step] = v[np.arange(v.shape[0]), support.argmax(axis=1)]
         out[k] = Estimate(float(np.mean(predicted == codes)))
     return out
 

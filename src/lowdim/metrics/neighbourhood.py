@@ -55,7 +55,7 @@ def _penalised(ctx: Neighbourhoods, ranks: np.ndarray, ks: Iterable[int]) -> dic
         excess = np.maximum(ranks[:, :k] - k, 0).sum(axis=1)
         scale = 2.0 / (n * k * (2.0 * n - 3.0 * k - 1.0))
         if ctx.sampled:
-            out[k] = ctx.mean_and_error(1.0 - scale * n * excess)
+            out[k] = ctx.mean_and_error(1.0 - scale * n * excess, sampled=True)
         else:
             out[k] = Estimate(1.0 - float(excess.sum()) * scale)
     return out
