@@ -98,13 +98,17 @@ def rnx_grid(k_top: int) -> list[int]:
 
 def _row_ranks(D: np.ndarray) -> np.ndarray:
     # Rank of every column within its row, self (set to -inf) ranked 0, ties to the lower index.
+    b, n = D.shape
     perm = np.argsort(D, axis=1)
-    ordered = np.take_along_axis(D, perm, axis=1)
+    # Flat indices: numpy's 1-D take and put are several times faster than *_along_axis.
+    flat = perm + (np.arange(b) * n)[:, None]
+    ordered = np.take(D, flat)
     tied = np.flatnonzero((ordered[:, 1:] == ordered[:, :-1]).any(axis=1))
     if tied.size:
         perm[tied] = np.argsort(D[tied], axis=1, kind="stable")
-    ranks = np.empty(D.shape, dtype=np.int64)
-    np.put_along_axis(ranks, perm, np.arange(D.shape[1])[None, :], axis=1)
+        flat[tied] = perm[tied] + (tied * n)[:, None]
+    ranks = np.empty(D.shape, dtype=np.int32)
+    np.put(ranks, flat, np.broadcast_to(np.arange(n, dtype=np.int32), (b, n)))
     return ranks
 
 
@@ -133,6 +137,9 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
             D[np.arange(b), blk] = -np.inf
             ranks = _row_ranks(D)
             worst = ranks if worst is None else np.maximum(worst, ranks)
+        if not ctx.full_sampled:
+            return np.bincount(worst.ravel(), minlength=n)
+        # Per-row areas, for the standard error of the sampled estimate.
         hist = np.bincount((worst + (np.arange(b) * n)[:, None]).ravel(), minlength=b * n)
         hist = hist.reshape(b, n)
         q_rows = np.cumsum(hist[:, 1 : n - 1], axis=1) / K
