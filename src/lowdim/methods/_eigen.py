@@ -5,6 +5,10 @@ for its size: LAPACK's ``eigh`` restricted to the wanted indices for small probl
 Lanczos (``eigsh``) for large or sparse ones, and a randomized subspace iteration (Halko,
 Martinsson & Tropp, SIAM Review 53, 2011) when asked. Every solver's start is drawn from
 ``random_state`` and every result's signs are fixed by :func:`fix_signs`, so runs repeat.
+
+``smallest_laplacian_eigenpairs`` returns the smallest eigenpairs of a sparse graph Laplacian
+through a chain: AMG-preconditioned LOBPCG, then shift-invert ARPACK, then dense ``eigh`` for
+small n, warning at each fallback and recording the solver that finished.
 """
 
 from __future__ import annotations
