@@ -18,6 +18,7 @@ from lowdim.methods._graphs import (
     epsilon_distance_graph,
     knn_distance_graph,
     laplacian,
+    query_distance_graph,
     symmetrize,
 )
 
@@ -126,3 +127,35 @@ def test_disconnected_policy_warn_raise_largest():
 def test_connected_graph_passes_silently(points):
     W = symmetrize(knn_distance_graph(points, 8).distances)
     assert disconnected_policy(W, "raise", "LaplacianEigenmaps") == (1, None)
+
+
+@pytest.mark.parametrize("kind", ["knn", "mutual_knn", "epsilon"])
+def test_query_of_training_points_reproduces_the_training_graph(points, kind):
+    if kind == "epsilon":
+        graph = epsilon_distance_graph(points, 1.2)
+    else:
+        graph = knn_distance_graph(points, 5)
+    # distances + 1 so that symmetrize's positive-weight rule keeps every edge
+    shifted = graph.distances.copy()
+    shifted.data += 1.0
+    mode = "intersection" if kind == "mutual_knn" else "union"
+    expected = symmetrize(shifted, mode)
+    expected.data -= 1.0
+    lonely = np.diff(expected.indptr) == 0  # no edge in training: joined to a neighbour
+    got = query_distance_graph(graph, points, kind)
+    assert np.all(np.diff(got.indptr)[lonely] == 1)
+    got, expected = got[~lonely], expected[~lonely]
+    assert np.array_equal(got.indptr, expected.indptr)
+    assert np.array_equal(got.indices, expected.indices)
+    assert_allclose(got.data, expected.data, atol=1e-12)
+    with_self = query_distance_graph(graph, points, kind, include_self=True)
+    assert with_self[~lonely].nnz == got.nnz + int(np.sum(~lonely))
+    assert np.all(with_self.diagonal() == 0)
+
+
+def test_query_far_point_falls_back_to_nearest_training_points(points):
+    graph = epsilon_distance_graph(points, 0.5)
+    far = np.full((1, 3), 100.0)
+    got = query_distance_graph(graph, far, "epsilon", fallback_neighbors=3)
+    nearest = np.sort(np.linalg.norm(points - far, axis=1))[:3]
+    assert_allclose(np.sort(got.data), nearest)

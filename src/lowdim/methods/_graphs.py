@@ -274,10 +274,14 @@ def query_distance_graph(
         vals = np.concatenate([vals, np.zeros(int(same.sum()))])
     lonely = np.setdiff1d(np.arange(m), rows)
     if lonely.size:
-        dist, ind = index.kneighbors(
-            X[lonely], n_neighbors=min(fallback_neighbors, n), return_distance=True
-        )
-        rows = np.concatenate([rows, np.repeat(lonely, ind.shape[1])])
+        # a lonely point that coincides with a training point skips that match here too
+        want = min(fallback_neighbors, n - 1)
+        dist, ind = index.kneighbors(X[lonely], n_neighbors=want + 1, return_distance=True)
+        skip = same[lonely] & (ind[:, 0] == nearest[lonely])
+        take = np.where(skip[:, None], np.arange(1, want + 1), np.arange(want))
+        dist = np.take_along_axis(dist, take, axis=1)
+        ind = np.take_along_axis(ind, take, axis=1)
+        rows = np.concatenate([rows, np.repeat(lonely, want)])
         cols = np.concatenate([cols, ind.ravel()])
         vals = np.concatenate([vals, dist.ravel()])
     order = np.lexsort((cols, rows))
