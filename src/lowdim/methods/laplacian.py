@@ -236,7 +236,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
             what = (
                 f"within radius={self.radius!r}"
                 if self._graph_kind() == "epsilon"
-                else f"among their n_neighbors={self.n_neighbors_} mutual neighbours"
+                else f"that is mutual among their n_neighbors={self.n_neighbors_} nearest"
             )
             raise InputError(
                 f"{lonely} of {W.shape[0]} points have no neighbour {what} in the graph of "
