@@ -48,6 +48,7 @@ __all__ = [
     "resolve_bandwidth",
     "rbf_from_distances",
     "laplacian_from_distances",
+    "underflow_error",
     "query_local_scales",
     "squared_distances",
     "manhattan_distances",
@@ -487,17 +488,22 @@ def _check_weights(
         linked = np.bincount(rows[other], minlength=present.size)
         isolated = int(np.sum((present > 0) & (linked == 0)))
         total = int(np.sum(present > 0))
-    if isolated and bw.rule == "gamma":
-        raise InputError(
+    if isolated:
+        raise underflow_error(bw, owner, isolated, total)
+
+
+def underflow_error(bw: Bandwidth, owner: str, isolated: int, total: int) -> InputError:
+    """The error for a kernel that leaves ``isolated`` of ``total`` points without weight."""
+    if bw.rule == "gamma":
+        return InputError(
             f"the parameter `gamma` of `{owner}` is too large for this data: with gamma = "
             f"{bw.gamma_value!r} the kernel underflows to 0 and leaves {isolated} of {total} "
             "points with no weight on any other point; use a smaller gamma, or leave gamma "
             "None and set bandwidth to a rule such as 'median'"
         )
-    if isolated:
-        raise InputError(
-            f"the parameter `bandwidth` of `{owner}` is too small for this data: with "
-            f"bandwidth {_value_text(bw)} the kernel underflows to 0 and leaves {isolated} of "
-            f"{total} points with no weight on any other point; use a larger value or a rule "
-            "such as 'median'"
-        )
+    return InputError(
+        f"the parameter `bandwidth` of `{owner}` is too small for this data: with "
+        f"bandwidth {_value_text(bw)} the kernel underflows to 0 and leaves {isolated} of "
+        f"{total} points with no weight on any other point; use a larger value or a rule "
+        "such as 'median'"
+    )
