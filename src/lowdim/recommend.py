@@ -260,6 +260,8 @@ def _lead_sentences(
             f"(p = {result.p_value:.2g}; the Nemenyi critical difference would be {cd:.2f}), "
             "so the lead is not significant."
         )
+    elif abs(rank_gap) < 0.005:
+        lines.append(f"{among} (the Nemenyi critical difference is {cd:.2f}): either will do.")
     elif rank_gap > cd:
         lines.append(
             f"{among}, more than the Nemenyi critical difference of {cd:.2f} (alpha 0.05): "

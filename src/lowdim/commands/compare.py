@@ -58,15 +58,16 @@ def run(args: argparse.Namespace) -> int:
     )
     for note in plan.warnings:
         print(f"lowdim: warning: {note}", file=sys.stderr)
-    suite = plan.suite["suite"]
+    seeds = len(plan.suite["suite"]["seeds"])
+    data = len(plan.suite["datasets"])
     shape = f"{plan.facts.n_samples} rows"
+    runs = f"{plan.n_settings} settings x {seeds} seed{'s' if seeds > 1 else ''}"
     if plan.facts.subsample:
-        shape += f", compared on {len(plan.suite['datasets'])} random subsamples of "
-        shape += f"{plan.facts.subsample}"
+        shape += f", compared on {data} random subsamples of {plan.facts.subsample}"
+        runs += f" x {data} subsamples"
+    total = plan.n_settings * seeds * data
     print(
-        f"lowdim compare: {plan.file.name} ({shape}); {plan.n_settings} settings x "
-        f"{len(suite['seeds'])} seeds x {len(plan.suite['datasets'])} data; results in "
-        f"{plan.out_dir}",
+        f"lowdim compare: {plan.file.name}, {shape}; {runs} = {total} runs into {plan.out_dir}",
         file=sys.stderr,
     )
     outcome = run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
