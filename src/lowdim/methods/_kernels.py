@@ -157,9 +157,21 @@ def linear_kernel(X: np.ndarray, Y: np.ndarray | None = None) -> np.ndarray:
 
 
 def rbf_kernel(X: np.ndarray, Y: np.ndarray | None = None, *, gamma: float) -> np.ndarray:
-    """k(x, y) = exp(-gamma |x - y|^2)."""
-    K = squared_distances(X, Y)
-    K *= -gamma
+    """k(x, y) = exp(-gamma |x - y|^2).
+
+    The exponent 2 gamma x.y - gamma |x|^2 - gamma |y|^2 is built in one product and three
+    in-place passes (clipped at 0 against rounding; the diagonal of ``Y = None`` exactly 0).
+    """
+    same = Y is None
+    Y = X if same else Y
+    xx = np.einsum("ij,ij->i", X, X) * gamma
+    yy = xx if same else np.einsum("ij,ij->i", Y, Y) * gamma
+    K = (X * (2.0 * gamma)) @ Y.T
+    K -= xx[:, None]
+    K -= yy[None, :]
+    np.minimum(K, 0.0, out=K)
+    if same:
+        np.fill_diagonal(K, 0.0)
     return np.exp(K, out=K)
 
 

@@ -29,6 +29,7 @@ from lowdim.methods._kernels import (
     polynomial_kernel,
     query_local_scales,
     rbf_from_distances,
+    rbf_kernel,
     resolve_bandwidth,
     squared_distances,
     underflow_error,
@@ -208,6 +209,8 @@ default="rbf"
         if new and bw.local is not None:
             row_scales = query_local_scales(self._X_fit, A, bw)
         owner = type(self).__name__ if check else None
+        if name == "rbf" and bw.local is None and not check:
+            return rbf_kernel(A, B, gamma=bw.gamma)
         if name == "rbf":
             distances = squared_distances(A, B)
             kernel = rbf_from_distances
@@ -252,7 +255,7 @@ default="rbf"
         if self._kernel_name == "precomputed":
             K = X.copy()
         else:
-            K = self._kernel_block(X, X)
+            K = self._kernel_block(X, None)
         column_means = K.mean(axis=0)
         if self._bw is not None:
             # every self weight is exp(0) = 1, so a column summing to 1 has no other weight

@@ -81,10 +81,15 @@ def _choose_solver(solver: str, n: int, d: int, k: int) -> str:
 
 
 def _scatter_eigh(X, mean, k):
-    d = X.shape[1]
-    C = np.zeros((d, d))
-    for _, block in _centred_blocks(X, mean):
-        C += block.T @ block
+    n, d = X.shape
+    C = X.T @ X
+    C -= n * np.outer(mean, mean)
+    spread = np.diag(C) / n
+    # X^T X - n m m^T loses about log10(m^2 / variance) digits: far-off means are centred first
+    if np.any(mean**2 > 1e6 * np.maximum(spread, np.finfo(float).tiny)):
+        C = np.zeros((d, d))
+        for _, block in _centred_blocks(X, mean):
+            C += block.T @ block
     values, vectors = scipy.linalg.eigh(C, subset_by_index=(d - k, d - 1), check_finite=False)
     return np.sqrt(np.clip(values[::-1], 0.0, None)), vectors[:, ::-1].T, float(np.trace(C))
 
