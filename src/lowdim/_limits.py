@@ -17,8 +17,10 @@ How the limits work:
   allocation too large to be caught between two polls fails at once with a ``MemoryError``
   (also status ``memory``) instead of driving the machine into swap.
 - Orphans: the child asks the kernel (``prctl(PR_SET_PDEATHSIG)``) to be killed when the process
-  that forked it dies, and the waiting parent stops waiting when the driver that owns the run
-  dies, so killing a run with SIGKILL leaves no job running on.
+  that forked it dies; a child of the fork server (whose parent is the server, not the waiting
+  process) also runs a thread that exits when the waiting process is gone. The waiting parent
+  kills the child and stops when the driver that owns the run dies, so killing a run with
+  SIGKILL leaves no job running on.
 
 How children are made: a parent with a single thread (a loky worker) forks the child
 directly, which is cheapest since the child inherits every imported module. A parent that runs
@@ -80,6 +82,7 @@ class Outcome:
     seconds: float = 0.0
     peak_rss_mb: float = 0.0
     traceback: str | None = None
+    abandoned: bool = False
 
 
 def _die_with_parent() -> None:
@@ -101,8 +104,21 @@ def _cap_address_space(memory_limit: int | None) -> None:
     resource.setrlimit(resource.RLIMIT_AS, (cap, hard))
 
 
-def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None) -> None:
+def _watch_waiter(waiter: int) -> None:
+    """Exit when the waiting parent dies (a fork server's child outlives it otherwise)."""
+
+    def watch() -> None:
+        while _alive(waiter):
+            time.sleep(0.5)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="lowdim-waiter-watch", daemon=True).start()
+
+
+def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, waiter: int) -> None:
     _die_with_parent()
+    if os.getppid() != waiter:
+        _watch_waiter(waiter)
     conn.send(_READY)
     try:
         _cap_address_space(memory_limit)
@@ -173,7 +189,9 @@ def run_limited(
     """
     ctx = _context()
     receive, send = ctx.Pipe(duplex=False)
-    proc = ctx.Process(target=_child, args=(send, fn, args, memory_limit), daemon=True)
+    proc = ctx.Process(
+        target=_child, args=(send, fn, args, memory_limit, os.getpid()), daemon=True
+    )
     proc.start()
     send.close()
     watched = psutil.Process(proc.pid)
@@ -225,7 +243,9 @@ def run_limited(
                     peak_rss_mb=peak / 2**20,
                 )
             if not _alive(watch_pid):
-                return Outcome("failed", error="abandoned: the run's driver process died")
+                return Outcome(
+                    "failed", error="abandoned: the run's driver process died", abandoned=True
+                )
     finally:
         if proc.is_alive():
             proc.kill()

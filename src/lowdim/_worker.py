@@ -156,6 +156,10 @@ def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | No
         memory_limit=job.memory_limit,
         watch_pid=watch_pid,
     )
+    if outcome.abandoned and watch_pid != os.getpid():
+        # The driver is gone, so no one will read this record; a worker process left behind
+        # would idle for minutes.
+        os._exit(1)
     record: dict[str, Any] = {
         "job": job,
         "status": outcome.status,
