@@ -193,6 +193,12 @@ def run(args: argparse.Namespace) -> int:
             f"{dataset.n_samples} rows; try other parameters"
         )
     write_embedding(out, Y, _label_values(dataset), args.labels)
+    if args.labels and out.suffix.lower() == ".npy":
+        print(
+            f"lowdim: note: a .npy file holds the coordinates only; the labels {args.labels!r} "
+            "are kept in a .csv output",
+            file=sys.stderr,
+        )
     print(
         f"wrote the {Y.shape[0]} x {Y.shape[1]} embedding of {args.file} by {args.method} to {out}"
     )
