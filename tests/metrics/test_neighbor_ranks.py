@@ -64,3 +64,13 @@ def test_results_do_not_depend_on_the_number_of_threads():
     with threadpool_limits(limits=2):
         two = score_embedding(X, Y, ks=(5, 10)).values
     assert one == two
+
+
+def test_distances_equal_in_float32_but_not_in_float64_are_ranked_exactly():
+    # 1 + 1e-12 and 1 round to the same float32: the counts must fall back to float64.
+    Z = np.array([0.0, 1 + 2e-12, 1.0, 3.0, 1 + 1e-12, -1.0, 2.0, 5.0])[:, None]
+    order, ranks = _plain_ranks(Z)
+    rows = np.arange(len(Z))
+    given = order[:, :5]
+    assert np.array_equal(neighbour_ranks(Z, rows, given), ranks[rows[:, None], given])
+    assert np.array_equal(neighbour_ranks(Z, rows, given), np.tile(np.arange(1, 6), (8, 1)))
