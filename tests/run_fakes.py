@@ -42,7 +42,7 @@ def install_fake_metrics(monkeypatch) -> None:
     monkeypatch.setattr(lowdim, "metrics", module, raising=False)
     monkeypatch.setattr(lowdim._limits, "START_METHOD", "fork")
     # The report reads real criteria from the metrics registry; the fake has none.
-    monkeypatch.setattr(lowdim.runner, "_build_report", lambda out_dir: None)
+    monkeypatch.setattr(lowdim.runner, "_build_report", lambda out_dir: (None, None))
 
 
 PLUGIN = '''

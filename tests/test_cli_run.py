@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import json
 import os
 import signal
 import sqlite3
@@ -209,41 +210,66 @@ def test_sigkill_mid_run_then_resume_keeps_every_job_once(tmp_path, plugin):
     assert sorted(p.stem for p in (out / "embeddings").glob("*.npy")) == sorted(ids)
 
 
-@pytest.mark.parametrize(
-    "body, expected",
-    [
-        (
-            '[suite]\nname = "v"\nseeds = [0,\n',
-            "lowdim: error: {path}: not valid TOML: Invalid value (at end of document)",
-        ),
-        (
-            '[suite]\nname = "v"\n[[datasets]]\nname = "swiss_roll"\n'
-            '[[methods]]\nname = "pca"\n[[methods]]\nname = "pca"\nsolver = "full"\n'
-            '[[methods]]\nname = "kernel_pcaa"\n',
-            "lowdim: error: {path}: the 3rd [[methods]]: `name`: unknown method 'kernel_pcaa' "
-            "(did you mean 'kernel_pca'?)",
-        ),
-        (
-            '[suite]\nname = "v"\n[[datasets]]\nname = "swiss_roll"\n'
-            '[[methods]]\nname = "kernel_pca"\nbandwith = 1.0\n',
-            "lowdim: error: {path}: the 1st [[methods]]: unknown parameter `bandwith` of "
-            "kernel_pca (did you mean 'bandwidth'?)",
-        ),
-        (
-            '[suite]\nname = "v"\nmetrics = ["trustworthyness"]\n[[datasets]]\n'
-            'name = "swiss_roll"\n[[methods]]\nname = "pca"\n',
-            "lowdim: error: {path}: [suite]: `metrics` names an unknown criterion "
-            "'trustworthyness' (did you mean 'trustworthiness'?)",
-        ),
-    ],
-)
-def test_validation_errors_are_one_line_exit_2_and_write_nothing(tmp_path, body, expected):
-    path = tmp_path / "bad.toml"
-    path.write_text(body)
-    out = tmp_path / "out"
-    done = lowdim("run", str(path), "--out", str(out), cwd=tmp_path)
-    assert done.returncode == 2
-    lines = done.stderr.strip().splitlines()
-    assert len(lines) == 1, done.stderr
-    assert lines[0].startswith(expected.format(path=path)), lines[0]
-    assert not out.exists() and not (tmp_path / "results").exists()
+BAD_SUITES = [
+    (
+        '[suite]\nname = "v"\nseeds = [0,\n',
+        "lowdim: error: {path}: not valid TOML: Invalid value (at end of document)",
+    ),
+    (
+        '[suite]\nname = "v"\n[[datasets]]\nname = "swiss_roll"\n'
+        '[[methods]]\nname = "pca"\n[[methods]]\nname = "pca"\nsolver = "full"\n'
+        '[[methods]]\nname = "kernel_pcaa"\n',
+        "lowdim: error: {path}: the 3rd [[methods]]: `name`: unknown method 'kernel_pcaa' "
+        "(did you mean 'kernel_pca'?)",
+    ),
+    (
+        '[suite]\nname = "v"\n[[datasets]]\nname = "swiss_roll"\n'
+        '[[methods]]\nname = "kernel_pca"\nbandwith = 1.0\n',
+        "lowdim: error: {path}: the 1st [[methods]]: unknown parameter `bandwith` of "
+        "kernel_pca (did you mean 'bandwidth'?)",
+    ),
+    (
+        '[suite]\nname = "v"\nmetrics = ["trustworthyness"]\n[[datasets]]\n'
+        'name = "swiss_roll"\n[[methods]]\nname = "pca"\n',
+        "lowdim: error: {path}: [suite]: `metrics` names an unknown criterion "
+        "'trustworthyness' (did you mean 'trustworthiness'?)",
+    ),
+]
+
+# One interpreter runs every bad suite through `cli.main`, as the console script does; starting
+# one interpreter per case would cost seconds each and test nothing more.
+_CHECK = """
+import contextlib, io, json, sys
+from lowdim.cli import main
+out = []
+for path in sys.argv[1:]:
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err):
+        code = main(["run", path, "--out", path + ".out"])
+    out.append([code, err.getvalue()])
+print(json.dumps(out))
+"""
+
+
+def test_validation_errors_are_one_line_exit_2_and_write_nothing(tmp_path):
+    paths = []
+    for i, (body, _) in enumerate(BAD_SUITES):
+        paths.append(tmp_path / f"bad{i}.toml")
+        paths[-1].write_text(body)
+    done = subprocess.run(
+        [sys.executable, "-c", _CHECK, *map(str, paths)],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 0, done.stderr
+    for path, (_, expected), (code, stderr) in zip(
+        paths, BAD_SUITES, json.loads(done.stdout), strict=True
+    ):
+        assert code == 2
+        lines = stderr.strip().splitlines()
+        assert len(lines) == 1, stderr
+        assert lines[0].startswith(expected.format(path=path)), lines[0]
+        assert not Path(f"{path}.out").exists()
+    assert not (tmp_path / "results").exists()

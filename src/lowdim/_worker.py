@@ -11,6 +11,7 @@ import os
 import resource
 import socket
 import time
+import warnings
 from datetime import UTC, datetime
 from typing import Any
 
@@ -88,7 +89,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
     for path in plugins:
         load_plugin(path)
     started = _now()
-    with threadpool_limits(limits=job.threads):
+    with threadpool_limits(limits=job.threads), warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
         data = datasets.load(dict(job.dataset_spec))
         X = np.asarray(data.X, dtype=np.float64)
         estimator = build_estimator(job)
@@ -125,6 +127,10 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
             values = [(str(m), int(k or 0), float(v)) for m, k, v in scores.values]
             notes = [str(n) for n in (scores.notes or [])]
             sample_size = scores.sample_size
+    # Warnings (a disconnected graph, a solver fallback) belong to the job: kept in its notes
+    # rather than printed by every job process onto the terminal.
+    seen = [f"{w.category.__name__}: {w.message}" for w in caught]
+    notes = list(dict.fromkeys([*notes, *(" ".join(text.split()) for text in seen)]))
     values += [("fit_seconds", 0, fit_seconds), ("peak_mb", 0, peak_mb)]
     return {
         "embedding": Y,

@@ -55,6 +55,7 @@ class RunSummary:
     seconds: float = 0.0
     exports: tuple[Path, ...] = ()
     report: Path | None = None
+    report_error: str | None = None
 
     @property
     def ran(self) -> int:
@@ -284,7 +285,7 @@ def run_suite(
             bar.close()
         store.finish_run(run_id)
         exports = tuple(store.export_scores())
-    built = _build_report(out_dir) if report else None
+    built, report_error = _build_report(out_dir) if report else (None, None)
     return RunSummary(
         out_dir=out_dir,
         run_id=run_id,
@@ -294,15 +295,24 @@ def run_suite(
         seconds=time.monotonic() - tic,
         exports=exports,
         report=built,
+        report_error=report_error,
     )
 
 
-def _build_report(out_dir: Path) -> Any:
-    """Build the report when :mod:`lowdim.report` exists; None otherwise."""
+def _build_report(out_dir: Path) -> tuple[Any, str | None]:
+    """Build the report when :mod:`lowdim.report` exists: ``(path or None, error or None)``.
+
+    A failing report does not undo the run: the store and ``scores.csv`` are complete, so the
+    error is returned for the caller to show, and ``lowdim report DIR`` can build it again.
+    """
     import importlib.util
 
     if importlib.util.find_spec("lowdim.report") is None:
-        return None
+        return None, None
     from lowdim import report
 
-    return report.build_report(out_dir)
+    try:
+        return report.build_report(out_dir), None
+    except Exception as exc:
+        log.debug("the report failed", exc_info=True)
+        return None, f"{type(exc).__name__}: {' '.join(str(exc).split())}"

@@ -104,4 +104,11 @@ def run(args: argparse.Namespace) -> int:
     else:
         print(f"report: {summary.report}")
     print(summary_line(summary), file=sys.stderr)
+    if summary.report_error:
+        print(
+            f"lowdim: error: the report could not be built ({summary.report_error}); every "
+            f"result is kept in {out_dir}, and `lowdim report {out_dir}` builds it again",
+            file=sys.stderr,
+        )
+        return 1
     return 0
