@@ -464,8 +464,8 @@ class ClassicalMDS(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstima
         self.n_components_ = k
         if self.negative_eigenvalue_share_ > NEGATIVE_SHARE_WARNING:
             warnings.warn(
-                f"{owner}: the dissimilarities are not Euclidean: negative eigenvalues carry about "
-                f"{self.negative_eigenvalue_share_:.1%} of the spectrum; the embedding "
+                f"{owner}: the dissimilarities are not Euclidean: negative eigenvalues carry "
+                f"about {self.negative_eigenvalue_share_:.1%} of the spectrum; the embedding "
                 "keeps the positive part only",
                 UserWarning,
                 stacklevel=2,
