@@ -74,3 +74,20 @@ def test_distances_equal_in_float32_but_not_in_float64_are_ranked_exactly():
     given = order[:, :5]
     assert np.array_equal(neighbour_ranks(Z, rows, given), ranks[rows[:, None], given])
     assert np.array_equal(neighbour_ranks(Z, rows, given), np.tile(np.arange(1, 6), (8, 1)))
+
+
+@pytest.mark.parametrize(
+    "n, K, lattice",
+    [(200, 3, True), (200, 40, True), (200, 40, False), (1300, 30, False), (1300, 30, True)],
+)
+def test_every_counting_path_matches_a_plain_sort(n, K, lattice):
+    # Few thresholds are compared directly, many against sorted rows (one search for narrow
+    # rows, one a row for wide ones); random neighbours make rows as wide as they get.
+    rng = np.random.default_rng(n + K)
+    Z = rng.integers(0, 4, size=(n, 3)).astype(float) if lattice else rng.normal(size=(n, 6))
+    _, ranks = _plain_ranks(Z)
+    rows = np.sort(rng.choice(n, size=40, replace=False))
+    given = np.array([rng.choice(np.delete(np.arange(n), r), size=K, replace=False) for r in rows])
+    assert np.array_equal(neighbour_ranks(Z, rows, given), ranks[rows[:, None], given])
+    near = knn_lists(Z, K)[rows]
+    assert np.array_equal(neighbour_ranks(Z, rows, near), ranks[rows[:, None], near])

@@ -242,22 +242,40 @@ def _within(D: np.ndarray, radius: np.ndarray) -> np.ndarray:
 
 
 def _count_below(near: np.ndarray, thresholds: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per row, how many entries of ``near`` are below, and at most, each threshold."""
+    """Per row, how many entries of float32 ``near`` are below, and at most, each threshold."""
     K, width = thresholds.shape[1], near.shape[1]
     # Nanoseconds an entry, measured with numpy 2.4: comparing with every threshold (twice)
-    # about 1.2 K; sorting the row about 0.7 log2(width), plus 3 us a row for the searches.
-    if 1.2 * K <= 0.7 * np.log2(max(width, 2)) + 3000 / width:
+    # about 1.2 K; sorting the row about 0.7 log2(width).
+    if 1.2 * K <= 0.7 * np.log2(max(width, 2)):
         cube = near[:, None, :]
         less = _count(np.less(cube, thresholds[:, :, None]))
         at_most = _count(np.less_equal(cube, thresholds[:, :, None]))
         return less, at_most
     ordered = np.sort(near, axis=1)
-    less = np.empty(thresholds.shape, dtype=np.int32)
-    at_most = np.empty(thresholds.shape, dtype=np.int32)
-    for r in range(near.shape[0]):
-        less[r] = np.searchsorted(ordered[r], thresholds[r], side="left")
-        at_most[r] = np.searchsorted(ordered[r], thresholds[r], side="right")
+    if width > 1000:  # a search call a row costs little against a wide row
+        less = np.empty(thresholds.shape, dtype=np.intp)
+        at_most = np.empty(thresholds.shape, dtype=np.intp)
+        for r in range(near.shape[0]):
+            less[r] = np.searchsorted(ordered[r], thresholds[r], side="left")
+            at_most[r] = np.searchsorted(ordered[r], thresholds[r], side="right")
+        return less, at_most
+    # Keys (row, value) in one uint64 make the row-sorted entries one sorted array, so one
+    # search serves every row.
+    rows = np.arange(near.shape[0], dtype=np.uint64)[:, None] << np.uint64(32)
+    keys = (_ordered_bits(ordered) | rows).ravel()
+    probes = _ordered_bits(thresholds) | rows
+    offsets = (np.arange(near.shape[0]) * width)[:, None]
+    less = np.searchsorted(keys, probes, side="left") - offsets
+    at_most = np.searchsorted(keys, probes, side="right") - offsets
     return less, at_most
+
+
+def _ordered_bits(values: np.ndarray) -> np.ndarray:
+    """float32 values as uint64 integers in the same order (equal values, equal integers)."""
+    bits = (values + np.float32(0.0)).view(np.uint32)  # + 0.0 turns -0.0 into +0.0
+    # The usual flip: negative floats reversed below the positive ones.
+    bits ^= (np.uint32(0) - (bits >> np.uint32(31))) | np.uint32(0x80000000)
+    return bits.astype(np.uint64)
 
 
 def _count(mask: np.ndarray) -> np.ndarray:
