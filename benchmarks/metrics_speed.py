@@ -9,7 +9,9 @@
    errors); R_NX is exact from the neighbour lists. scikit-learn's function would need two
    50,000 x 50,000 matrices (40 GB), so it is not run there.
 
-Run: ``python benchmarks/metrics_speed.py`` (about a minute on two cores).
+Run: ``python benchmarks/metrics_speed.py`` (about a minute on two cores). Wall and CPU
+seconds are both printed: lowdim's blocks run in threads (up to the BLAS thread limit),
+scikit-learn's sort runs in one, so on a busy machine the CPU ratio is the fairer one.
 """
 
 from __future__ import annotations
