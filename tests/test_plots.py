@@ -107,6 +107,9 @@ def test_every_figure_draws_and_skips_empty_input(tmp_path: Path) -> None:
         columns=["family", "held", "dataset", "method", "bandwidth", "rule", "picked", "score"],
     )
     assert _is_png(plots.bandwidth_sensitivity(bw, "rnx_auc", tmp_path / "bw.png"))
+    # Rules alone with no recorded sigma leave nothing to place on a log axis: no figure.
+    rules_only = bw[bw["rule"] == "local"]
+    assert plots.bandwidth_sensitivity(rules_only, "rnx_auc", tmp_path / "none.png") is None
 
     scaling = pd.DataFrame(
         [(m, n, 1e-6 * n**2, 10 + n / 100) for m in methods for n in (100, 1000, 10000)],

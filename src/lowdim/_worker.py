@@ -100,6 +100,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         Y = estimator.fit_transform(X)
         fit_seconds = time.perf_counter() - tic
         peak_mb = max(0, _peak_rss() - before) / 2**20
+        # The kernel scale a rule picked, so the report can mark it on the sensitivity curves.
+        sigma = getattr(estimator, "bandwidth_", None)
         if hasattr(Y, "toarray"):
             Y = Y.toarray()
         Y = np.asarray(Y, dtype=np.float64)
@@ -132,6 +134,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
     seen = [f"{w.category.__name__}: {w.message}" for w in caught]
     notes = list(dict.fromkeys([*notes, *(" ".join(text.split()) for text in seen)]))
     values += [("fit_seconds", 0, fit_seconds), ("peak_mb", 0, peak_mb)]
+    if isinstance(sigma, int | float | np.floating) and np.isfinite(sigma):
+        values.append(("bandwidth", 0, float(sigma)))
     return {
         "embedding": Y,
         "values": values,

@@ -322,6 +322,12 @@ def bandwidth_sensitivity(
     """
     if curves.empty:
         return None
+    # A panel needs at least one sigma on the log axis: a fixed value or a rule's recorded pick.
+    placed = (curves["rule"] == "") | np.isfinite(curves["picked"].astype(float))
+    panel = [curves["family"], curves["held"], curves["dataset"]]
+    curves = curves[placed.groupby(panel).transform("any")]
+    if curves.empty:
+        return None
     _theme()
     keys = list(
         dict.fromkeys(zip(curves["family"], curves["held"], curves["dataset"], strict=True))
