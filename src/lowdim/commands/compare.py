@@ -25,7 +25,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--out", metavar="DIR", help="results folder (default: results/compare-<file stem>/)"
     )
     parser.add_argument(
-        "--jobs", "-j", type=int, default=1, metavar="N", help="parallel jobs (-1: every core)"
+        "--jobs",
+        "-j",
+        type=int,
+        default=-1,
+        metavar="N",
+        help="parallel jobs (default -1: one per core)",
     )
     parser.add_argument(
         "--quick",

@@ -21,7 +21,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--out", metavar="DIR", help="results folder (default: results/<suite name>/)"
     )
     parser.add_argument(
-        "--jobs", "-j", type=int, default=1, metavar="N", help="parallel jobs (-1: every core)"
+        "--jobs",
+        "-j",
+        type=int,
+        default=-1,
+        metavar="N",
+        help="parallel jobs (default -1: one per core, within the suite's threads per job)",
     )
     parser.add_argument("--backend", choices=BACKENDS, default="loky", help="parallel backend")
     parser.add_argument(
