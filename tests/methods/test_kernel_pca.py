@@ -128,6 +128,41 @@ def test_random_state_and_iterative_solver_repeatable():
     assert np.all(a.embedding_[rows, [0, 1]] > 0)  # DEVELOPERS.md sign rule
 
 
+@pytest.mark.parametrize(
+    "ours, theirs",
+    [
+        (dict(kernel="rbf", gamma=0.3), dict(kernel="rbf", gamma=0.3)),
+        (dict(kernel="cosine"), dict(kernel="cosine")),
+        (
+            dict(kernel="polynomial", gamma=0.4, degree=2, coef0=1.0),
+            dict(kernel="poly", gamma=0.4, degree=2, coef0=1.0),
+        ),
+    ],
+)
+def test_lanczos_on_products_matches_a_dense_solve(ours, theirs):
+    # Above the dense limit the centred kernel is never formed: Lanczos works on J K J v
+    # products reading one triangle of K. sklearn.decomposition.KernelPCA with a dense
+    # eigensolver is the reference, embedding and out-of-sample transform alike.
+    rng = np.random.default_rng(2)
+    X, new = rng.normal(size=(700, 3)), rng.normal(size=(20, 3))
+    model = KernelPCA(n_components=3, random_state=0, **ours).fit(X)
+    ref = SklearnKernelPCA(n_components=3, eigen_solver="dense", **theirs).fit(X)
+    assert model.solver_ == "arpack"
+    assert_allclose(model.eigenvalues_, ref.eigenvalues_, rtol=1e-8)
+    assert_allclose_up_to_sign(model.embedding_, ref.transform(X), atol=1e-7)
+    assert_allclose_up_to_sign(model.transform(new), ref.transform(new), atol=1e-7)
+
+
+def test_lanczos_with_local_scales_matches_our_dense_solve():
+    # The same eigenproblem solved two ways (exact fact): per-point scales make the kernel
+    # matrix full, and the product path must agree with the dense eigendecomposition.
+    X = np.random.default_rng(5).normal(size=(700, 3))
+    fast = KernelPCA(bandwidth="local", solver="arpack", random_state=0).fit(X)
+    dense = KernelPCA(bandwidth="local", solver="dense", random_state=0).fit(X)
+    assert_allclose(fast.eigenvalues_, dense.eigenvalues_, rtol=1e-8)
+    assert_allclose(fast.embedding_, dense.embedding_, atol=1e-7)
+
+
 def _linear_accuracy(score, labels):
     """Best accuracy of a threshold on a 1-D score: a linear classifier in one dimension."""
     order = np.argsort(score)

@@ -18,6 +18,7 @@ from lowdim.methods._kernels import (
     query_local_scales,
     rbf_from_distances,
     rbf_kernel,
+    rbf_kernel_upper,
     resolve_bandwidth,
     squared_distances,
 )
@@ -49,6 +50,14 @@ def test_kernels_match_scikit_learn(blocks):
     assert_allclose(laplacian_kernel(X, Y, gamma=0.2), pairwise.laplacian_kernel(X, Y, gamma=0.2))
     Z = np.vstack([X[:3], np.zeros((1, 4))])
     assert_allclose(cosine_kernel(Z, Y), pairwise.cosine_similarity(Z, Y), atol=1e-12)
+
+
+def test_rbf_upper_triangle_matches_scikit_learn():
+    X = np.random.default_rng(3).normal(size=(300, 5))
+    K = rbf_kernel_upper(X, gamma=0.3, block_rows=64)
+    # sklearn.metrics.pairwise.rbf_kernel is the reference; below the diagonal stays 0
+    assert_allclose(K, np.triu(pairwise.rbf_kernel(X, gamma=0.3)), atol=1e-14)
+    assert np.all(np.tril(K, k=-1) == 0.0)
 
 
 def test_rbf_from_distances_uses_sigma_convention(blocks):

@@ -175,6 +175,31 @@ def rbf_kernel(X: np.ndarray, Y: np.ndarray | None = None, *, gamma: float) -> n
     return np.exp(K, out=K)
 
 
+def rbf_kernel_upper(X: np.ndarray, *, gamma: float, block_rows: int = 128) -> np.ndarray:
+    """The upper triangle (diagonal included) of the RBF kernel of ``X`` with itself.
+
+    Row block by row block, only the entries ``K[i, j]`` with ``j >= i`` are computed: half
+    the exponentials of :func:`rbf_kernel`, which dominate its cost. The strict lower
+    triangle is left 0. For solvers that read one triangle of a symmetric matrix (BLAS
+    ``dsymv``).
+    """
+    n = X.shape[0]
+    K = np.zeros((n, n))
+    sq = np.einsum("ij,ij->i", X, X) * gamma
+    scaled = X * (2.0 * gamma)
+    for start in range(0, n, block_rows):
+        stop = min(start + block_rows, n)
+        part = scaled[start:stop] @ X[start:].T
+        part -= sq[start:stop, None]
+        part -= sq[None, start:]
+        np.minimum(part, 0.0, out=part)
+        part[np.arange(stop - start), np.arange(stop - start)] = 0.0
+        np.exp(part, out=part)
+        part[np.tril_indices(stop - start, k=-1)] = 0.0
+        K[start:stop, start:] = part
+    return K
+
+
 def polynomial_kernel(
     X: np.ndarray,
     Y: np.ndarray | None = None,

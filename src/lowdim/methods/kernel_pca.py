@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import scipy.linalg
+import scipy.linalg.blas
+import scipy.sparse.linalg
 from sklearn.base import BaseEstimator, ClassNamePrefixFeaturesOutMixin, TransformerMixin
 from sklearn.utils import check_random_state
 from sklearn.utils.validation import check_is_fitted
@@ -30,6 +32,7 @@ from lowdim.methods._kernels import (
     query_local_scales,
     rbf_from_distances,
     rbf_kernel,
+    rbf_kernel_upper,
     resolve_bandwidth,
     squared_distances,
     underflow_error,
@@ -44,6 +47,25 @@ _BLOCK_ENTRIES = 4_000_000
 # ARPACK's relative residual: on 4,000-point RBF kernels the eigenvectors still agree with a
 # dense solve to ~1e-11, in 21 matrix-vector products against 38 at machine precision
 ARPACK_TOL = 1e-8
+
+
+def _centred_kernel_operator(K: np.ndarray) -> scipy.sparse.linalg.LinearOperator:
+    """The doubly centred kernel J K J (J = I - 11^T / n) as a product, for Lanczos.
+
+    BLAS ``dsymv`` reads only the entries ``K[i, j]`` with ``j >= i`` of the symmetric ``K``
+    (the lower triangle of its Fortran-ordered transpose, no copy), so ``K`` may hold just that
+    triangle. Reading one triangle halves the memory traffic of ``K @ v``; the centring costs
+    O(n) per product instead of two passes over ``K``.
+    """
+    n = K.shape[0]
+    K_fortran = K.T
+
+    def product(v: np.ndarray) -> np.ndarray:
+        u = np.ravel(v) - np.mean(v)
+        w = scipy.linalg.blas.dsymv(1.0, K_fortran, u, lower=1)
+        return w - w.mean()
+
+    return scipy.sparse.linalg.LinearOperator((n, n), matvec=product, dtype=np.float64)
 
 
 class KernelPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
@@ -252,20 +274,37 @@ default="rbf"
         return self
 
     def _fit_exact(self, X, k, rng):
+        n = X.shape[0]
+        solver = self.solver.lower()
+        if solver == "auto":
+            solver = "dense" if n <= DENSE_LIMIT or 5 * k > n else "arpack"
+        # Iterative solvers only need products J K J v (J = I - 11^T/n) with a kernel known to
+        # be positive semi-definite: no centred copy of K, and BLAS reads one triangle of it.
+        products = solver != "dense" and not self._indefinite_possible()
+        triangle = products and self._kernel_name == "rbf" and self._bw.local is None
         if self._kernel_name == "precomputed":
             K = X.copy()
+        elif triangle:
+            K = rbf_kernel_upper(X, gamma=self._bw.gamma)
         else:
             K = self._kernel_block(X, None)
-        column_means = K.mean(axis=0)
+        if triangle:
+            column_means = (K.sum(axis=0) + K.sum(axis=1) - 1.0) / n  # the diagonal is exp(0)
+        else:
+            column_means = K.mean(axis=0)
         if self._bw is not None:
             # every self weight is exp(0) = 1, so a column summing to 1 has no other weight
-            isolated = int(np.sum(column_means * K.shape[0] - 1.0 <= 0.0))
+            isolated = int(np.sum(column_means * n - 1.0 <= 0.0))
             if isolated:
-                raise underflow_error(self._bw, type(self).__name__, isolated, K.shape[0])
+                raise underflow_error(self._bw, type(self).__name__, isolated, n)
         grand = float(column_means.mean())
-        K -= column_means[None, :]
-        K -= (column_means - grand)[:, None]
-        top = top_eigenpairs(K, k, solver=self.solver.lower(), random_state=rng, tol=ARPACK_TOL)
+        if products:
+            operator = _centred_kernel_operator(K)
+        else:
+            K -= column_means[None, :]
+            K -= (column_means - grand)[:, None]
+            operator = K
+        top = top_eigenpairs(operator, k, solver=solver, random_state=rng, tol=ARPACK_TOL)
         values = self._checked_spectrum(K, top.values, rng)
         root = np.sqrt(values)
         self._column_means = column_means
@@ -275,17 +314,19 @@ default="rbf"
         self.eigenvalues_ = values
         self.solver_ = top.solver
 
+    def _indefinite_possible(self) -> bool:
+        # rbf, laplacian, linear, cosine and polynomial kernels with coef0 >= 0 are positive
+        # semi-definite in exact arithmetic: only a user's matrix or coef0 < 0 needs a look
+        return self._kernel_name == "precomputed" or (
+            self._kernel_name == "polynomial" and self.coef0 < 0
+        )
+
     def _checked_spectrum(self, K, values, rng):
         """Clip rounding negatives; refuse a kernel that is not positive semi-definite."""
         largest = max(float(values[0]), 0.0)
         floor = -NEGATIVE_TOLERANCE * largest - 1e-10
         lowest = float(values[-1])
-        # rbf, laplacian, linear, cosine and polynomial kernels with coef0 >= 0 are positive
-        # semi-definite in exact arithmetic: only a user's matrix or coef0 < 0 needs a look
-        indefinite = self._kernel_name == "precomputed" or (
-            self._kernel_name == "polynomial" and self.coef0 < 0
-        )
-        if indefinite and lowest >= floor:
+        if self._indefinite_possible() and lowest >= floor:
             K *= -1.0
             solver = "dense" if K.shape[0] <= DENSE_LIMIT else "arpack"
             lowest = -float(top_eigenpairs(K, 1, solver=solver, random_state=rng, tol=1e-6)[0][0])
