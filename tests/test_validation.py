@@ -11,6 +11,7 @@ from lowdim._validation import (
     check_data,
     check_param,
     check_params,
+    largest_asymmetry,
 )
 from lowdim.errors import InputError
 
@@ -102,3 +103,16 @@ def test_check_data_refuses_sparse_with_type_error():
 
     with pytest.raises(TypeError, match="sparse"):
         check_data(scipy.sparse.eye(3, format="csr"), "Demo")
+
+
+def test_largest_asymmetry_matches_the_plain_transpose():
+    # A naive oracle: np.abs(A - A.T) over the whole matrix (exact fact)
+    rng = np.random.default_rng(4)
+    A = rng.normal(size=(300, 300))
+    A = A + A.T
+    A[217, 41] += 0.5
+    gap, i, j = largest_asymmetry(A, tile=64)
+    plain = np.abs(A - A.T)
+    assert gap == plain.max() == 0.5
+    assert {i, j} == {217, 41}
+    assert largest_asymmetry(A + A.T)[0] == 0.0

@@ -16,6 +16,7 @@ from lowdim._validation import (
     Interval,
     Options,
     check_params,
+    largest_asymmetry,
     validate_input,
 )
 from lowdim.errors import InputError
@@ -443,9 +444,8 @@ def _check_precomputed(K: np.ndarray, owner: str) -> None:
             f"kernel matrix, got shape ({n}, {d}); pass the kernel between the training points"
         )
     scale = float(np.max(np.abs(K)))
-    difference = np.abs(K - K.T)
-    if float(np.max(difference)) > 1e-8 * max(scale, 1.0):
-        i, j = np.unravel_index(int(np.argmax(difference)), K.shape)
+    gap, i, j = largest_asymmetry(K)
+    if gap > 1e-8 * max(scale, 1.0):
         raise InputError(
             f"the parameter `kernel` of `{owner}` is 'precomputed', so `X` must be symmetric, "
             f"but X[{i}, {j}] = {K[i, j]:.6g} and X[{j}, {i}] = {K[j, i]:.6g}; symmetrise it, "

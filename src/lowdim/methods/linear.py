@@ -24,6 +24,7 @@ from lowdim._validation import (
     Interval,
     Options,
     check_params,
+    largest_asymmetry,
     validate_input,
 )
 from lowdim.errors import InputError
@@ -281,7 +282,7 @@ def _negative_mass(B: np.ndarray, vectors: np.ndarray, values: np.ndarray, rng) 
     run side by side: each step is one matrix-matrix product.
     """
     n = B.shape[0]
-    probes, steps = 16, min(40, n)
+    probes, steps = 16, min(20, n)
     q = rng.choice([-1.0, 1.0], size=(n, probes)) / np.sqrt(n)
     q_prev = np.zeros_like(q)
     alphas = np.zeros((steps, probes))
@@ -544,9 +545,8 @@ def _check_dissimilarities(D: np.ndarray, owner: str) -> None:
             "or use metric='euclidean' for features"
         )
     scale = float(np.max(np.abs(D))) if D.size else 0.0
-    gap = float(np.max(np.abs(D - D.T)))
+    gap, i, j = largest_asymmetry(D)
     if gap > 1e-8 * max(scale, 1.0):
-        i, j = np.unravel_index(int(np.argmax(np.abs(D - D.T))), D.shape)
         raise InputError(
             f"the parameter `metric` of `{owner}` is 'precomputed', so `X` must be symmetric, "
             f"but X[{i}, {j}] = {D[i, j]:.6g} and X[{j}, {i}] = {D[j, i]:.6g}; symmetrise it, "
