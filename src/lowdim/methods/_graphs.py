@@ -6,13 +6,15 @@ edge weights computed on its stored entries, and a symmetrisation (union for a k
 intersection for a mutual kNN graph). Nothing here forms an n x n dense matrix.
 
 A disconnected graph is never embedded silently: :func:`disconnected_policy` warns with the
-number of components and their sizes, raises, or keeps the largest component.
+number of components and their sizes, raises, or keeps the largest component, and
+:func:`fit_by_policy` runs a graph method's fit under that policy.
 """
 
 from __future__ import annotations
 
 import warnings
-from typing import NamedTuple
+from collections.abc import Callable
+from typing import Any, NamedTuple
 
 import numpy as np
 import scipy.sparse
@@ -39,6 +41,7 @@ __all__ = [
     "symmetrize",
     "components",
     "disconnected_policy",
+    "fit_by_policy",
     "degrees",
     "laplacian",
 ]
@@ -124,14 +127,20 @@ def components(W: scipy.sparse.spmatrix) -> tuple[int, np.ndarray]:
 
 
 def disconnected_policy(
-    W: scipy.sparse.spmatrix, policy: str, owner: str, *, hint: str = ""
+    W: scipy.sparse.spmatrix,
+    policy: str,
+    owner: str,
+    *,
+    hint: str = "",
+    stacklevel: int = 3,
 ) -> tuple[int, np.ndarray | None]:
     """Apply the policy for a disconnected graph; return the count and the points to keep.
 
     Returns ``(n_components, keep)`` where ``keep`` is None when every point is kept and
     otherwise the sorted indices of the largest component (the lowest component label wins a
     tie in size). ``"warn"`` keeps every point and warns, ``"raise"`` raises an InputError,
-    ``"largest"`` warns and returns the largest component. ``hint`` says how to connect it.
+    ``"largest"`` warns and returns the largest component. ``hint`` says how to connect it;
+    ``stacklevel`` points the warning at the caller of the estimator's ``fit``.
     """
     count, labels = components(W)
     if count == 1:
@@ -154,7 +163,7 @@ def disconnected_policy(
             f"{what}: the leading coordinates only tell the components apart; {fix}, or set "
             "on_disconnected='largest' to embed the largest component",
             DisconnectedGraphWarning,
-            stacklevel=3,
+            stacklevel=stacklevel,
         )
         return count, None
     if policy == "largest":
@@ -165,10 +174,55 @@ def disconnected_policy(
             f"{labels.size - keep.size} points are listed in `excluded_` and placed by the "
             "out-of-sample extension",
             DisconnectedGraphWarning,
-            stacklevel=3,
+            stacklevel=stacklevel,
         )
         return count, keep
     raise ValueError(f"`policy` must be one of {ON_DISCONNECTED}, got {policy!r}")
+
+
+def fit_by_policy(
+    X: np.ndarray,
+    W: scipy.sparse.spmatrix,
+    built: Any,
+    *,
+    policy: str,
+    owner: str,
+    hint: str,
+    n_components: int,
+    build: Callable[[np.ndarray], Any],
+    solve: Callable[[np.ndarray, Any], np.ndarray],
+    extend: Callable[[np.ndarray], np.ndarray],
+    graph_name: str = "graph",
+    too_few_fix: str = "raise `n_neighbors` or lower `n_components`",
+) -> tuple[int, np.ndarray, np.ndarray]:
+    """Fit a graph method on ``X`` under the policy for a disconnected graph.
+
+    ``W`` is the graph of ``X`` and ``built`` whatever ``build(X)`` returned for it. Under
+    ``"largest"`` the method is rebuilt and solved on the largest component only and the
+    other points are placed by ``extend``, the fitted method's out-of-sample extension.
+    ``solve(X_fit, built)`` fits the method and returns the embedding of ``X_fit``.
+    ``graph_name`` and ``too_few_fix`` word the error for a component smaller than
+    ``n_components + 1`` points.
+
+    Returns ``(n_connected_components, excluded, embedding)``: the component count, the
+    sorted indices left out of the fit, and one embedding row per point of ``X``.
+    """
+    count, keep = disconnected_policy(W, policy, owner, hint=hint, stacklevel=4)
+    if keep is None:
+        return count, np.zeros(0, dtype=np.intp), solve(X, built)
+    n = X.shape[0]
+    excluded = np.setdiff1d(np.arange(n), keep)
+    X_fit = X[keep]
+    if n_components + 1 > X_fit.shape[0]:
+        raise InputError(
+            f"the largest component of the {graph_name} of `{owner}` has {X_fit.shape[0]} "
+            f"points, too few for n_components={n_components}; {too_few_fix}"
+        )
+    inner = solve(X_fit, build(X_fit))
+    full = np.empty((n, inner.shape[1]))
+    full[keep] = inner
+    full[excluded] = extend(X[excluded])
+    return count, excluded, full
 
 
 def degrees(W: scipy.sparse.spmatrix) -> np.ndarray:

@@ -25,8 +25,8 @@ from lowdim.methods._eigen import (
 )
 from lowdim.methods._graphs import (
     ON_DISCONNECTED,
-    disconnected_policy,
     edge_rows,
+    fit_by_policy,
     knn_distance_graph,
     local_rule_for,
     log_weights,
@@ -223,31 +223,23 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         rng = check_random_state(self.random_state)
         K, graph, bw = self._kernel(X, rng)
         hint = "raise `bandwidth`" + ("" if graph is None else " or `n_neighbors`")
-        count, keep = disconnected_policy(
-            scipy.sparse.csr_matrix(K), self.on_disconnected.lower(), owner, hint=hint
+        self.n_connected_components_, self.excluded_, self.embedding_ = fit_by_policy(
+            X,
+            scipy.sparse.csr_matrix(K),
+            (K, graph, bw),
+            policy=self.on_disconnected.lower(),
+            owner=owner,
+            hint=hint,
+            n_components=self.n_components,
+            build=lambda Z: self._kernel(Z, rng),
+            solve=lambda Z, built: self._solve(Z, *built, rng),
+            extend=self._extend,
+            graph_name="kernel graph",
+            too_few_fix="raise `bandwidth` or `n_neighbors`, or lower `n_components`",
         )
-        self.n_connected_components_ = count
-        self.excluded_ = np.zeros(0, dtype=np.intp)
-        X_fit = X
-        if keep is not None:
-            self.excluded_ = np.setdiff1d(np.arange(n), keep)
-            X_fit = X[keep]
-            if self.n_components + 1 > X_fit.shape[0]:
-                raise InputError(
-                    f"the largest component of the kernel graph of `{owner}` has "
-                    f"{X_fit.shape[0]} points, too few for n_components={self.n_components}; "
-                    "raise `bandwidth` or `n_neighbors`, or lower `n_components`"
-                )
-            K, graph, bw = self._kernel(X_fit, rng)
-        self._solve(X_fit, K, graph, bw, rng)
-        if keep is not None:
-            full = np.empty((n, self.n_components_))
-            full[keep] = self.embedding_
-            full[self.excluded_] = self._extend(X[self.excluded_])
-            self.embedding_ = full
         return self
 
-    def _solve(self, X_fit, K, graph, bw, rng) -> None:
+    def _solve(self, X_fit, K, graph, bw, rng) -> np.ndarray:
         alpha = float(self.alpha)
         m = self.n_components
         q = np.asarray(K.sum(axis=1)).ravel()
@@ -288,6 +280,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         self._graph = graph
         self._X_fit = X_fit
         self._log_q = np.log(q)
+        return self.embedding_
 
     # -- out of sample -------------------------------------------------------------------
 

@@ -24,9 +24,9 @@ from lowdim.methods._graphs import (
     ON_DISCONNECTED,
     DistanceGraph,
     default_neighbors,
-    disconnected_policy,
     edge_rows,
     epsilon_distance_graph,
+    fit_by_policy,
     knn_distance_graph,
     laplacian,
     local_rule_for,
@@ -271,29 +271,21 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         self._check_isolated(W)
         policy = self.on_disconnected.lower()
         hint = "raise `radius`" if self._graph_kind() == "epsilon" else "raise `n_neighbors`"
-        count, keep = disconnected_policy(W, policy, owner, hint=hint)
-        self.n_connected_components_ = count
-        self.excluded_ = np.zeros(0, dtype=np.intp)
-        X_fit = X
-        if keep is not None:
-            self.excluded_ = np.setdiff1d(np.arange(n), keep)
-            X_fit = X[keep]
-            if self.n_components + 1 > X_fit.shape[0]:
-                raise InputError(
-                    f"the largest component of the graph of `{owner}` has {X_fit.shape[0]} "
-                    f"points, too few for n_components={self.n_components}; raise "
-                    "`n_neighbors` or lower `n_components`"
-                )
-            graph, bw, W = self._build(X_fit, rng)
-        self._solve(X_fit, graph, bw, W, rng)
-        if keep is not None:
-            full = np.empty((n, self.n_components_))
-            full[keep] = self.embedding_
-            full[self.excluded_] = self._extend(X[self.excluded_])
-            self.embedding_ = full
+        self.n_connected_components_, self.excluded_, self.embedding_ = fit_by_policy(
+            X,
+            W,
+            (graph, bw, W),
+            policy=policy,
+            owner=owner,
+            hint=hint,
+            n_components=self.n_components,
+            build=lambda Z: self._build(Z, rng),
+            solve=lambda Z, built: self._solve(Z, *built, rng),
+            extend=self._extend,
+        )
         return self
 
-    def _solve(self, X_fit, graph: DistanceGraph, bw, W, rng) -> None:
+    def _solve(self, X_fit, graph: DistanceGraph, bw, W, rng) -> np.ndarray:
         normalization = self.normalization.lower()
         L, degree, null = laplacian(W, normalization)
         m = self.n_components
@@ -318,6 +310,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
             self._basis = self.embedding_ / np.sqrt(degree)[:, None]
         else:
             self._basis = self.embedding_
+        return self.embedding_
 
     # -- out of sample -------------------------------------------------------------------
 
