@@ -7,7 +7,6 @@ those are checked against published values in test_scoring.py).
 from __future__ import annotations
 
 import csv
-import hashlib
 import json
 import os
 import re
@@ -16,142 +15,12 @@ import sqlite3
 import subprocess
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from lowdim.errors import InputError
 from lowdim.report import build_report
 
 MARKUP = "<script>alert(1)</script>"
-
-SCHEMA = """
-CREATE TABLE jobs (job_id TEXT PRIMARY KEY, dataset TEXT, dataset_label TEXT,
-    dataset_params TEXT, method TEXT, method_label TEXT, method_params TEXT, seed INTEGER,
-    n_components INTEGER, status TEXT, error TEXT, fit_seconds REAL, peak_mb REAL,
-    n_samples INTEGER, n_features INTEGER, sample_size INTEGER, started TEXT, finished TEXT,
-    lowdim_version TEXT, run_id INTEGER);
-CREATE TABLE scores (job_id TEXT, metric TEXT, k INTEGER, value REAL,
-    PRIMARY KEY (job_id, metric, k));
-CREATE TABLE runs (run_id INTEGER PRIMARY KEY, command TEXT, suite_name TEXT, suite_path TEXT,
-    suite_text TEXT, environment TEXT, started TEXT, finished TEXT);
-"""
-
-SUITE_TEXT = """[suite]
-name = "fixture"
-seeds = [0, 1]
-"""
-
-
-def write_store(folder: Path, *, seeds: tuple[int, ...] = (0, 1)) -> Path:
-    """A small run: a noise axis, an n axis, a bandwidth sweep, a failure, a markup label."""
-    rng = np.random.default_rng(7)
-    (folder / "embeddings").mkdir(parents=True)
-    datasets = [
-        ("swiss_roll", f"swiss_roll(noise={z})", {"name": "swiss_roll", "n": 60, "noise": z})
-        for z in (0.0, 0.1, 0.3)
-    ]
-    datasets += [
-        ("s_curve", f"s_curve(n={n})", {"name": "s_curve", "n": n, "noise": 0.05})
-        for n in (40, 80, 160)
-    ]
-    datasets += [("iris", MARKUP, {"name": "iris"})]
-    methods = [
-        ("pca", "pca", {"name": "pca"}, 0.70, 0.3, 1.0),
-        (
-            "laplacian_eigenmaps",
-            "laplacian_eigenmaps",
-            {"name": "laplacian_eigenmaps", "n_neighbors": 10},
-            0.92,
-            1.6,
-            2.0,
-        ),
-    ]
-    methods += [
-        (
-            "kernel_pca",
-            f"kernel_pca(bandwidth={b})",
-            {"name": "kernel_pca", "kernel": "rbf", "bandwidth": b},
-            q,
-            0.6,
-            2.0,
-        )
-        for b, q in ((0.5, 0.60), (2.0, 0.86), (8.0, 0.74), ("median", 0.80))
-    ]
-    con = sqlite3.connect(folder / "store.sqlite")
-    con.executescript(SCHEMA)
-    con.execute(
-        "INSERT INTO runs VALUES (1, ?, 'fixture', 'suites/fixture.toml', ?, ?, ?, ?)",
-        (
-            "lowdim run suites/fixture.toml --jobs 2",
-            SUITE_TEXT,
-            json.dumps({"python": "3.11", "packages": {"numpy": np.__version__}}),
-            "2024-05-01T10:00:00+00:00",
-            "2024-05-01T10:03:30+00:00",
-        ),
-    )
-    for d_name, d_label, d_spec in datasets:
-        n = d_spec.get("n", 150)
-        noise = d_spec.get("noise", 0.0)
-        for m_name, m_label, m_spec, quality, fragility, power in methods:
-            for seed in seeds:
-                job_id = hashlib.sha1(f"{d_label}|{m_label}|{seed}".encode()).hexdigest()[:16]
-                status, error = "ok", None
-                if m_name == "laplacian_eigenmaps" and n == 160 and seed == seeds[-1]:
-                    status, error = "timeout", "ran past the 120 s limit <b>after</b> 3 tries"
-                fit = 1e-5 * n**power
-                q = quality * (1 - fragility * noise) + 0.01 * rng.standard_normal()
-                con.execute(
-                    "INSERT INTO jobs VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
-                    (
-                        job_id,
-                        d_name,
-                        d_label,
-                        json.dumps({**d_spec, "seed": seed}),
-                        m_name,
-                        m_label,
-                        json.dumps(m_spec),
-                        seed,
-                        2,
-                        status,
-                        error,
-                        fit,
-                        50 + n / 10,
-                        n,
-                        3 if d_name != "iris" else 4,
-                        None,
-                        "2024-05-01T10:00:01+00:00",
-                        "2024-05-01T10:00:02+00:00",
-                        "0.1.0",
-                        1,
-                    ),
-                )
-                if status != "ok":
-                    continue
-                scores = {
-                    ("trustworthiness", 5): q,
-                    ("trustworthiness", 10): q - 0.02,
-                    ("continuity", 5): q + 0.03,
-                    ("continuity", 10): q + 0.01,
-                    ("rnx_auc", 0): q - 0.3,
-                    ("stress", 0): 1.1 - q,
-                    ("fit_seconds", 0): fit,
-                    ("peak_mb", 0): 50 + n / 10,
-                }
-                for k in (1, 2, 5, 10, 20, 30):
-                    scores[("rnx", k)] = (q - 0.3) * (1 - 0.1 * np.log(k))
-                if d_name == "iris":
-                    scores[("knn_accuracy", 5)] = q
-                if m_spec.get("bandwidth") == "median":
-                    scores[("bandwidth", 0)] = 1.7
-                con.executemany(
-                    "INSERT INTO scores VALUES (?,?,?,?)",
-                    [(job_id, m, k, float(v)) for (m, k), v in scores.items()],
-                )
-                np.save(folder / "embeddings" / f"{job_id}.npy", rng.standard_normal((n, 2)))
-    con.commit()
-    con.close()
-    return folder
-
 
 OUTPUTS = [
     "scores.csv",
@@ -164,8 +33,8 @@ OUTPUTS = [
 
 
 @pytest.fixture(scope="module")
-def built(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    folder = write_store(tmp_path_factory.mktemp("run") / "fixture")
+def built(tmp_path_factory: pytest.TempPathFactory, write_store) -> Path:
+    folder = write_store(tmp_path_factory.mktemp("run") / "fixture", iris_label=MARKUP)
     build_report(folder)
     return folder
 
