@@ -94,7 +94,8 @@ def leaderboard_markdown(
         for key in keys:
             value = ranks.at[method, key] if key in ranks and method in ranks.index else math.nan
             best = key in ranks and value == ranks[key].min()
-            cells.append(f"**{value:.2f}**" if best else fmt(value, 3))
+            text = "–" if not math.isfinite(value) else f"{value:.2f}"
+            cells.append(f"**{text}**" if best else text)
         cells.append(f"{overall[method]:.2f}")
         rows.append(cells)
     lines += _md_table(["method", *keys, "overall"], rows) + [""]
