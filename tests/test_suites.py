@@ -213,6 +213,20 @@ def test_missing_file():
             "the `headline` criterion 'continuity' is not among `metrics`",
         ),
         (
+            lambda d: d["suite"].update(headline=["trustworthiness@12"]),
+            "suites/x.toml: [suite]: the `headline` criterion 'trustworthiness@12' asks for "
+            "K = 12, which is not among `neighbors` [5, 10]",
+        ),
+        (
+            lambda d: d["suite"].update(headline=["trustworthiness@ten"]),
+            "suites/x.toml: [suite]: the `headline` entry 'trustworthiness@ten' must be a "
+            "criterion name or 'name@K'",
+        ),
+        (
+            lambda d: d["suite"].update(headline=[]),
+            "suites/x.toml: [suite]: `headline` must be a criterion or a list of criteria",
+        ),
+        (
             lambda d: d["suite"].update(seeds=[0, -1]),
             "suites/x.toml: [suite]: `seeds` must be a non-empty list of integers >= 0",
         ),
@@ -309,3 +323,10 @@ def test_suite_text_and_settings_are_kept(tmp_path):
     assert job.neighbors == (5, 10, 30) and job.metrics is None
     assert job.method_spec == {"name": "pca"}
     json.dumps(job.dataset_spec)  # the spec is plain data, storable as JSON
+
+
+def test_headline_may_list_criteria_at_their_own_k():
+    suite = suite_from_dict(base(headline=["continuity@5", "trustworthiness@10"]), source="x")
+    assert suite.headline == "continuity"
+    assert suite.headline_keys == ("continuity@5", "trustworthiness@10")
+    assert suite_from_dict(base(), source="x").headline_keys == ("trustworthiness",)

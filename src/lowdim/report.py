@@ -83,8 +83,9 @@ def gather_evidence(
     """Compute tables, statistics and curves from a loaded store.
 
     ``selection`` names the criterion that picks each method's best configuration in the
-    tuned view (default: the suite's ``headline`` criterion when it sets one, else the first
-    headline criterion, ``rnx_auc`` when present).
+    tuned view (default: the suite's first ``headline`` criterion when it sets one, else the
+    first headline criterion, ``rnx_auc`` when present). A suite whose ``headline`` lists
+    several criteria (``"name@K"`` entries allowed) sets the headline columns too.
     """
     cache = cache or DatasetCache()
     table = criterion_table(results)
@@ -97,9 +98,12 @@ def gather_evidence(
             f"{str(results.out_dir)!r}{suggestion(selection, criteria)}; give one of "
             f"{', '.join(criteria) or '(none)'}."
         )
-    if selection is None:
-        selection = _suite_headline(results, criteria)
-        if selection and selection not in headline:
+    suite_keys = _suite_headline(results, criteria)
+    if len(suite_keys) > 1:
+        headline = suite_keys  # the suite chose its headline criteria itself
+    if selection is None and suite_keys:
+        selection = suite_keys[0]
+        if selection not in headline:
             headline.insert(0, selection)
     if selection is None:
         selection = headline[0] if headline else next(iter(criteria), "")
@@ -138,23 +142,33 @@ def gather_evidence(
     )
 
 
-def _suite_headline(results: Results, criteria: dict[str, bool]) -> str | None:
-    """The criterion key named by the latest suite's ``headline`` (a K criterion at its middle
-    K), or None when the suite names none that was scored."""
+def _suite_headline(results: Results, criteria: dict[str, bool]) -> list[str]:
+    """The criterion keys named by the latest suite's ``headline``, in its order.
+
+    An entry ``"name@K"`` is that key; a bare name is a K criterion at its middle K. Entries
+    that were not scored are left out; an empty list when the suite names none.
+    """
     runs = results.runs
     if runs.empty or "suite_text" not in runs:
-        return None
+        return []
     try:
         suite = tomllib.loads(str(runs.sort_values("run_id")["suite_text"].iloc[-1]))
     except tomllib.TOMLDecodeError:
-        return None
-    name = suite.get("suite", {}).get("headline")
-    if not isinstance(name, str):
-        return None
-    if name in criteria:
-        return name
-    chosen = headline_criteria({k: v for k, v in criteria.items() if k.split("@")[0] == name})
-    return chosen[0] if chosen else None
+        return []
+    entries = suite.get("suite", {}).get("headline")
+    entries = [entries] if isinstance(entries, str) else entries
+    if not isinstance(entries, list):
+        return []
+    keys = []
+    for name in entries:
+        if not isinstance(name, str):
+            continue
+        if name in criteria:
+            keys.append(name)
+            continue
+        chosen = headline_criteria({k: v for k, v in criteria.items() if k.split("@")[0] == name})
+        keys += chosen[:1]
+    return list(dict.fromkeys(keys))
 
 
 def _draw_figures(ev: Evidence, folder: Path, cache: DatasetCache) -> None:

@@ -127,6 +127,8 @@ class Suite:
     description: str
     datasets: tuple[Entry, ...]
     methods: tuple[Entry, ...]
+    # the headline as given: criterion names, or "name@K" keys (the first is `headline`)
+    headline_keys: tuple[str, ...] = ()
 
     def jobs(self) -> list[Job]:
         """Every (dataset, method, seed) job, dataset-major, with stable ids."""
@@ -288,14 +290,44 @@ def _check_settings(table: Any, source: str) -> dict:
             _check_metric(m, known, where, "metrics")
         metrics = tuple(dict.fromkeys(metrics))
     out["metrics"] = metrics
-    headline = out["headline"]
-    _check_metric(headline, known, where, "headline")
-    if metrics is not None and headline not in metrics and headline not in RUNNER_METRICS:
+    entries = out["headline"]
+    entries = [entries] if isinstance(entries, str) else entries
+    if not isinstance(entries, list | tuple) or not entries:
         raise InputError(
-            f"{where}: the `headline` criterion {headline!r} is not among `metrics`; add it to "
-            "`metrics` or choose one of them"
+            f"{where}: `headline` must be a criterion or a list of criteria, e.g. "
+            '"trustworthiness" or ["knn_accuracy@1", "trustworthiness@12"]'
         )
+    keys = []
+    for entry in entries:
+        name, k = _headline_entry(entry, where)
+        _check_metric(name, known, where, "headline")
+        if metrics is not None and name not in metrics and name not in RUNNER_METRICS:
+            raise InputError(
+                f"{where}: the `headline` criterion {name!r} is not among `metrics`; add it to "
+                "`metrics` or choose one of them"
+            )
+        if k is not None and k not in out["neighbors"]:
+            raise InputError(
+                f"{where}: the `headline` criterion {entry!r} asks for K = {k}, which is not "
+                f"among `neighbors` {list(out['neighbors'])}; add it there or choose one of them"
+            )
+        keys.append(entry)
+    out["headline"] = _headline_entry(keys[0], where)[0]
+    out["headline_keys"] = tuple(keys)
     return out
+
+
+def _headline_entry(entry: Any, where: str) -> tuple[Any, int | None]:
+    """Split a headline entry ``"name"`` or ``"name@K"`` into the name and K (None)."""
+    if not isinstance(entry, str) or "@" not in entry:
+        return entry, None
+    name, _, k = entry.partition("@")
+    if not k.isdigit() or int(k) < 1:
+        raise InputError(
+            f"{where}: the `headline` entry {entry!r} must be a criterion name or 'name@K' "
+            "with K a positive integer"
+        )
+    return name, int(k)
 
 
 def _metric_names() -> list[str]:

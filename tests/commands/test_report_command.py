@@ -49,3 +49,23 @@ def test_named_selection_criterion_is_used(tmp_path: Path, write_store) -> None:
     folder = write_store(tmp_path / "tiny", small=True)
     assert main(["report", str(folder), "--select", "trustworthiness@5"]) == 0
     assert "selection criterion trustworthiness@5" in (folder / "report.html").read_text()
+
+
+def test_a_suite_headline_list_sets_the_columns_and_the_selection(
+    tmp_path: Path, write_store
+) -> None:
+    # A suite may name its headline criteria at their own K, as a published protocol does
+    # (van der Maaten et al. 2009 report T(12), C(12) and 1-NN error): those become the
+    # leaderboard's columns, in that order, and the first picks the tuned view.
+    import sqlite3
+
+    folder = write_store(tmp_path / "listed", small=True)
+    with sqlite3.connect(folder / "store.sqlite") as con:
+        (text,) = con.execute("SELECT suite_text FROM runs").fetchone()
+        text = text.replace("[suite]\n", '[suite]\nheadline = ["continuity@5", "stress"]\n', 1)
+        con.execute("UPDATE runs SET suite_text = ?", (text,))
+    assert main(["report", str(folder)]) == 0
+    board = (folder / "leaderboard.md").read_text()
+    header = next(line for line in board.splitlines() if line.startswith("| method"))
+    assert header == "| method | continuity@5 | stress | overall |"
+    assert "by continuity@5" in (folder / "report.html").read_text()

@@ -59,7 +59,9 @@ def leaderboard_lines(out_dir: Path, suite: Suite) -> list[str]:
         )
         if not ks:
             return [f"no `{suite.headline}` scores to show"]
-        k = 0 if 0 in ks else ks[len(ks) // 2]
+        first = suite.headline_keys[0] if suite.headline_keys else suite.headline
+        asked = int(first.partition("@")[2] or -1)
+        k = asked if asked in ks else 0 if 0 in ks else ks[len(ks) // 2]
         means = store.headline_means(suite.headline, k)
     datasets = [e.label for e in suite.datasets]
     methods = [e.label for e in suite.methods]
