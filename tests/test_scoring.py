@@ -249,3 +249,27 @@ def test_seed_stability_is_zero_for_a_rotated_scaled_copy(tmp_path: Path) -> Non
     out = seed_stability(results, NoReload()).set_index("dataset")
     assert out.loc["helix", "disparity"] == pytest.approx(0.0, abs=1e-12)
     assert math.isnan(out.loc["moons", "disparity"]) and out.loc["moons", "note"]
+
+
+def test_the_report_keeps_the_jobs_of_the_latest_run(tmp_path, write_store):
+    # A suite edited and run again into the same folder: the store keeps the earlier jobs,
+    # the report reads only those the latest run planned (exact fact of the fixture).
+    import sqlite3
+
+    from lowdim.scoring import load_results
+
+    folder = write_store(tmp_path / "again", small=True)
+    everything = load_results(folder).jobs
+    kept = everything[everything["dataset_label"] == everything["dataset_label"].iloc[0]]
+    with sqlite3.connect(folder / "store.sqlite") as con:
+        con.execute(
+            "CREATE TABLE planned (run_id INTEGER, job_id TEXT, dataset_label TEXT, "
+            "method_label TEXT, seed INTEGER)"
+        )
+        rows = [(1, j, "", "", 0) for j in everything["job_id"]]
+        rows += [(2, j, "", "", 0) for j in kept["job_id"]]
+        con.executemany("INSERT INTO planned VALUES (?, ?, ?, ?, ?)", rows)
+    results = load_results(folder)
+    assert sorted(results.jobs["job_id"]) == sorted(kept["job_id"])
+    assert set(results.scores["job_id"]) <= set(kept["job_id"])
+    assert len(kept) < len(everything)

@@ -104,6 +104,26 @@ def _read_table(con: sqlite3.Connection, name: str) -> pd.DataFrame:
     return pd.read_sql_query(f"SELECT * FROM {name}", con)
 
 
+def _latest_suite_only(
+    jobs: pd.DataFrame, scores: pd.DataFrame, planned: pd.DataFrame
+) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Keep the jobs the latest run planned, when the store records them.
+
+    A folder keeps every job it ever ran, so a suite edited and run again leaves the jobs of
+    its earlier form behind; the report speaks of the suite as it is now.
+    """
+    if planned.empty or jobs.empty or "job_id" not in planned:
+        return jobs, scores
+    latest = planned[planned["run_id"] == planned["run_id"].max()]["job_id"]
+    keep = jobs["job_id"].isin(set(latest))
+    if not keep.any():
+        return jobs, scores
+    jobs = jobs[keep].reset_index(drop=True)
+    if not scores.empty:
+        scores = scores[scores["job_id"].isin(set(jobs["job_id"]))].reset_index(drop=True)
+    return jobs, scores
+
+
 def _json_dict(text: Any) -> dict:
     if isinstance(text, dict):
         return text
@@ -161,8 +181,10 @@ def load_results(out_dir: str | Path) -> Results:
         jobs = _read_table(con, "jobs")
         scores = _read_table(con, "scores")
         runs = _read_table(con, "runs")
+        planned = _read_table(con, "planned")
     finally:
         con.close()
+    jobs, scores = _latest_suite_only(jobs, scores, planned)
     if jobs.empty:
         raise InputError(
             f"the results store {str(path)!r} holds no jobs yet; run a suite into "
