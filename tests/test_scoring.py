@@ -273,3 +273,30 @@ def test_the_report_keeps_the_jobs_of_the_latest_run(tmp_path, write_store):
     assert sorted(results.jobs["job_id"]) == sorted(kept["job_id"])
     assert set(results.scores["job_id"]) <= set(kept["job_id"])
     assert len(kept) < len(everything)
+
+
+def test_breakdown_curves_need_two_values_along_the_axis(tmp_path, write_store):
+    # Two stress axes on one dataset, not crossed (as a suite with one table per axis writes
+    # them): a cell holding one axis value has no curve, so it gets no breakdown row.
+    import json as _json
+    import sqlite3
+
+    from lowdim.breakdown import breakdown_table
+    from lowdim.scoring import criteria_in, criterion_table, load_results, summarise
+
+    folder = write_store(tmp_path / "axes")
+    with sqlite3.connect(folder / "store.sqlite") as con:
+        rows = con.execute("SELECT job_id, dataset_params FROM jobs").fetchall()
+        for job_id, params in rows:
+            spec = _json.loads(params)
+            if spec.get("name") == "swiss_roll":
+                spec["density"] = 2.0 if spec.get("noise") == 0.0 else 0.0
+                con.execute(
+                    "UPDATE jobs SET dataset_params = ? WHERE job_id = ?",
+                    (_json.dumps(spec), job_id),
+                )
+    results = load_results(folder)
+    table = criterion_table(results)
+    board = breakdown_table(results, table, criteria_in(summarise(table)))
+    assert not board.empty
+    assert all(len(v) >= 2 for v in board["values"])

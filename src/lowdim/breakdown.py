@@ -120,6 +120,8 @@ def breakdown_table(
         )
         for (held, method), cell in frame.groupby(["held", "method"], sort=True):
             grid = sorted(cell["value"].unique())
+            if len(grid) < 2:
+                continue  # the axis does not vary with these values held: no curve to read
             for key, higher in criteria.items():
                 pts = scored[
                     (scored["held"] == held)
