@@ -7,6 +7,7 @@ neighbour lists of the two spaces and the ranks computed from them agree.
 
 from __future__ import annotations
 
+import functools
 import os
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
@@ -15,7 +16,7 @@ from typing import NamedTuple
 
 import numpy as np
 from scipy.spatial import cKDTree
-from threadpoolctl import threadpool_info
+from threadpoolctl import ThreadpoolController
 
 __all__ = [
     "Estimate",
@@ -55,10 +56,18 @@ class Estimate(NamedTuple):
     standard_error: float | None = None
 
 
+@functools.cache
+def _blas_controller() -> ThreadpoolController:
+    # Finding the loaded libraries scans the process's memory map (milliseconds); their
+    # thread counts, read afterwards, are live.
+    return ThreadpoolController()
+
+
 def worker_threads() -> int:
     """Threads for the blocked loops: the BLAS thread limit in force (what the runner or the
     user set with threadpoolctl), else the number of CPUs."""
-    limits = [info["num_threads"] for info in threadpool_info() if info["user_api"] == "blas"]
+    blas = _blas_controller().select(user_api="blas")
+    limits = [lib.num_threads for lib in blas.lib_controllers]
     return max(1, min(limits) if limits else os.cpu_count() or 1)
 
 
