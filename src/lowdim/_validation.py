@@ -31,6 +31,7 @@ __all__ = [
     "check_data",
     "validate_input",
     "largest_asymmetry",
+    "check_symmetric",
     "RANDOM_STATE",
 ]
 
@@ -270,3 +271,15 @@ def largest_asymmetry(A: np.ndarray, *, tile: int = 256) -> tuple[float, int, in
                 i, j = np.unravel_index(int(np.argmax(gap)), gap.shape)
                 worst, where = top, (r + int(i), c + int(j))
     return worst, where[0], where[1]
+
+
+def check_symmetric(A: np.ndarray, owner: str, parameter: str) -> None:
+    """Raise InputError unless the precomputed square matrix ``A`` is symmetric (to 1e-8)."""
+    scale = float(np.max(np.abs(A))) if A.size else 0.0
+    gap, i, j = largest_asymmetry(A)
+    if gap > 1e-8 * max(scale, 1.0):
+        raise InputError(
+            f"the parameter `{parameter}` of `{owner}` is 'precomputed', so `X` must be "
+            f"symmetric, but X[{i}, {j}] = {A[i, j]:.6g} and X[{j}, {i}] = {A[j, i]:.6g}; "
+            "symmetrise it, e.g. (X + X.T) / 2"
+        )

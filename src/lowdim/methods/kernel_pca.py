@@ -16,7 +16,7 @@ from lowdim._validation import (
     Interval,
     Options,
     check_params,
-    largest_asymmetry,
+    check_symmetric,
     validate_input,
 )
 from lowdim.errors import InputError
@@ -443,11 +443,4 @@ def _check_precomputed(K: np.ndarray, owner: str) -> None:
             f"the parameter `kernel` of `{owner}` is 'precomputed', so `X` must be a square "
             f"kernel matrix, got shape ({n}, {d}); pass the kernel between the training points"
         )
-    scale = float(np.max(np.abs(K)))
-    gap, i, j = largest_asymmetry(K)
-    if gap > 1e-8 * max(scale, 1.0):
-        raise InputError(
-            f"the parameter `kernel` of `{owner}` is 'precomputed', so `X` must be symmetric, "
-            f"but X[{i}, {j}] = {K[i, j]:.6g} and X[{j}, {i}] = {K[j, i]:.6g}; symmetrise it, "
-            "e.g. (X + X.T) / 2"
-        )
+    check_symmetric(K, owner, "kernel")

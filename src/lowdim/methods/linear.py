@@ -24,7 +24,7 @@ from lowdim._validation import (
     Interval,
     Options,
     check_params,
-    largest_asymmetry,
+    check_symmetric,
     validate_input,
 )
 from lowdim.errors import InputError
@@ -544,11 +544,4 @@ def _check_dissimilarities(D: np.ndarray, owner: str) -> None:
             f"matrix of dissimilarities, got shape ({n}, {d}); pass pairwise dissimilarities "
             "or use metric='euclidean' for features"
         )
-    scale = float(np.max(np.abs(D))) if D.size else 0.0
-    gap, i, j = largest_asymmetry(D)
-    if gap > 1e-8 * max(scale, 1.0):
-        raise InputError(
-            f"the parameter `metric` of `{owner}` is 'precomputed', so `X` must be symmetric, "
-            f"but X[{i}, {j}] = {D[i, j]:.6g} and X[{j}, {i}] = {D[j, i]:.6g}; symmetrise it, "
-            "e.g. (X + X.T) / 2"
-        )
+    check_symmetric(D, owner, "metric")
