@@ -32,17 +32,14 @@ def fake_score_embedding(X, Y, *, metrics=None, ks=(5,), labels=None, truth=None
 def install_fake_metrics(monkeypatch) -> None:
     """Put a fake ``lowdim.metrics`` in place and make job children inherit it (fork)."""
     import lowdim
-    import lowdim._limits
-    import lowdim.runner
+    import lowdim.run.limits
 
     module = types.ModuleType("lowdim.metrics")
     module.metric_names = lambda: list(METRIC_NAMES)
     module.score_embedding = fake_score_embedding
     monkeypatch.setitem(sys.modules, "lowdim.metrics", module)
     monkeypatch.setattr(lowdim, "metrics", module, raising=False)
-    monkeypatch.setattr(lowdim._limits, "START_METHOD", "fork")
-    # The report reads real criteria from the metrics registry; the fake has none.
-    monkeypatch.setattr(lowdim.runner, "_build_report", lambda out_dir: (None, None))
+    monkeypatch.setattr(lowdim.run.limits, "START_METHOD", "fork")
 
 
 PLUGIN = '''

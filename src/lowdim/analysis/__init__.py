@@ -1,0 +1,1 @@
+"""From the results store to one results object: ranks, summaries, tests and the winner."""

@@ -1,0 +1,165 @@
+"""Tidy data behind the report's curves: R_NX(K), bandwidth sweeps, scaling, the gallery."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pandas as pd
+
+from lowdim.analysis.breakdown import DatasetCache
+from lowdim.analysis.results import Results, _canonical
+
+__all__ = ["rnx_curves", "bandwidth_curves", "scaling_table", "loglog_slope", "gallery_panels"]
+
+
+def rnx_curves(table: pd.DataFrame) -> pd.DataFrame:
+    """Mean R_NX(K) over seeds: ``dataset, method, k, mean``."""
+    part = table[(table["metric"] == "rnx") & (table["k"] > 0)]
+    return (
+        part.groupby(["dataset", "method", "k"], sort=True)["value"]
+        .mean()
+        .rename("mean")
+        .reset_index()
+    )
+
+
+def bandwidth_curves(results: Results, table: pd.DataFrame, criterion: str) -> pd.DataFrame:
+    """Criterion against bandwidth for methods whose configurations differ only in it.
+
+    Columns ``family, held, dataset, method, bandwidth, rule, picked, score``: ``bandwidth`` is
+    the number (NaN for a rule), ``rule`` the rule's text (empty for a number), ``picked`` the
+    sigma a rule chose when the runner stored it as the score ``bandwidth`` (k = 0), NaN if not.
+    """
+    cols = ["family", "held", "dataset", "method", "bandwidth", "rule", "picked", "score"]
+    jobs = results.jobs.drop_duplicates("config")
+    swept = []
+    for family, group in jobs.groupby("family", sort=True):
+        specs = [
+            (c, s)
+            for c, s in zip(group["config"], group["config_spec"], strict=True)
+            if "bandwidth" in s
+        ]
+        held_of = {
+            c: _canonical({k: v for k, v in s.items() if k != "bandwidth"}) for c, s in specs
+        }
+        for held in sorted(set(held_of.values())):
+            members = [(c, s["bandwidth"]) for c, s in specs if held_of[c] == held]
+            if len({json.dumps(b, default=str) for _, b in members}) >= 2:
+                swept.extend((family, _held_text(held), c, b) for c, b in members)
+    if not swept:
+        return pd.DataFrame(columns=cols)
+    means = table.groupby(["dataset", "method", "criterion"])["value"].mean()
+    rows = []
+    for family, held, config, bw in swept:
+        for dataset in sorted(table.loc[table["method"] == config, "dataset"].unique()):
+            score = means.get((dataset, config, criterion), math.nan)
+            picked = means.get((dataset, config, "bandwidth"), math.nan)
+            numeric = isinstance(bw, int | float) and not isinstance(bw, bool)
+            rows.append(
+                {
+                    "family": family,
+                    "held": held,
+                    "dataset": dataset,
+                    "method": config,
+                    "bandwidth": float(bw) if numeric else math.nan,
+                    "rule": "" if numeric else str(bw),
+                    "picked": float(picked),
+                    "score": float(score),
+                }
+            )
+    return pd.DataFrame(rows, columns=cols)
+
+
+def _held_text(canonical: str) -> str:
+    shown = {k: v for k, v in json.loads(canonical).items() if k not in ("name", "import")}
+    return ", ".join(f"{k}={v}" for k, v in shown.items())
+
+
+def loglog_slope(n: np.ndarray, y: np.ndarray) -> float:
+    """Least-squares slope of log y against log n over positive pairs (NaN if < 2 distinct n)."""
+    n, y = np.asarray(n, dtype=float), np.asarray(y, dtype=float)
+    keep = (n > 0) & (y > 0) & np.isfinite(n) & np.isfinite(y)
+    if np.unique(n[keep]).size < 2:
+        return math.nan
+    return float(np.polyfit(np.log(n[keep]), np.log(y[keep]), 1)[0])
+
+
+def scaling_table(results: Results) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Fit time and peak memory against n for dataset names whose n varies in the run.
+
+    Returns ``(points, fits)``: points ``method, n_samples, fit_seconds, peak_mb`` (means
+    over seeds and datasets of equal n), fits ``method, quantity, slope, n_points``.
+    """
+    ok = results.jobs[results.jobs["status"] == "ok"].dropna(subset=["n_samples"])
+    varying = ok.groupby("dataset")["n_samples"].nunique()
+    ok = ok[ok["dataset"].isin(varying[varying >= 2].index)]
+    if ok.empty:
+        empty = pd.DataFrame(columns=["method", "n_samples", "fit_seconds", "peak_mb"])
+        return empty, pd.DataFrame(columns=["method", "quantity", "slope", "n_points"])
+    points = (
+        ok.groupby(["config", "n_samples"])[["fit_seconds", "peak_mb"]]
+        .mean()
+        .reset_index()
+        .rename(columns={"config": "method"})
+    )
+    fits = []
+    for method, g in points.groupby("method", sort=True):
+        for quantity in ("fit_seconds", "peak_mb"):
+            slope = loglog_slope(g["n_samples"].to_numpy(), g[quantity].to_numpy())
+            fits.append(
+                {
+                    "method": method,
+                    "quantity": quantity,
+                    "slope": slope,
+                    "n_points": int(g["n_samples"].nunique()),
+                }
+            )
+    return points, pd.DataFrame(fits)
+
+
+def gallery_panels(
+    results: Results, cache: DatasetCache, max_datasets: int = 6, max_methods: int = 6
+) -> tuple[list[dict], list[str]]:
+    """One seed's embeddings for up to ``max_datasets`` x ``max_methods`` panels.
+
+    Panels are coloured by labels when the dataset has them, else by its first intrinsic
+    coordinate, else by row order (when the dataset cannot be reloaded). Returns the panels
+    and notes for the caption.
+    """
+    ok = results.jobs[results.jobs["status"] == "ok"]
+    if ok.empty:
+        return [], []
+    seed = ok["seed"].min()
+    first = ok[ok["seed"] == seed]
+    datasets = list(dict.fromkeys(first["data"]))[:max_datasets]
+    methods = list(dict.fromkeys(first["config"]))[:max_methods]
+    panels, notes = [], []
+    for data in datasets:
+        rows = first[(first["data"] == data) & first["config"].isin(methods)]
+        if rows.empty:
+            continue
+        spec = json.loads(rows["dataset_params"].iloc[0])
+        cells = float(rows["n_samples"].iloc[0] or 0) * float(rows["n_features"].iloc[0] or 0)
+        ds = cache.get(spec, cells)
+        colour, kind = None, "order"
+        if ds is not None and getattr(ds, "labels", None) is not None:
+            colour, kind = np.asarray(ds.labels), "labels"
+        elif ds is not None and getattr(ds, "truth", None) is not None:
+            colour, kind = np.asarray(ds.truth, dtype=float).reshape(len(ds.X), -1)[:, 0], "truth"
+        elif ds is None:
+            notes.append(f"{data}: coloured by row order (the data could not be reloaded)")
+        else:
+            notes.append(f"{data}: coloured by row order (no labels or intrinsic coordinates)")
+        for _, job in rows.iterrows():
+            path = results.embedding_path(job["job_id"])
+            if not path.is_file():
+                continue
+            Y = np.load(path)
+            if Y.ndim != 2 or (colour is not None and len(colour) != len(Y)):
+                continue
+            panels.append(
+                {"dataset": data, "method": job["config"], "Y": Y, "colour": colour, "kind": kind}
+            )
+    return panels, notes

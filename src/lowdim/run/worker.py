@@ -1,0 +1,191 @@
+"""What runs inside one job: load the data, fit the method, score the embedding.
+
+:func:`run_job` is what a joblib worker (loky or dask) calls; it runs :func:`execute_job` in a
+child process under the job's limits (see :mod:`lowdim.run.limits`) and returns a plain dict the
+driver writes to the store. Nothing here touches the store: only the driver writes.
+"""
+
+from __future__ import annotations
+
+import os
+import resource
+import socket
+import time
+import warnings
+from datetime import UTC, datetime
+from typing import Any
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from lowdim.run.limits import run_limited
+from lowdim.run.suites import RUNNER_METRICS, Job
+
+__all__ = ["build_estimator", "execute_job", "run_job"]
+
+
+def _now() -> str:
+    return datetime.now(UTC).isoformat(timespec="milliseconds")
+
+
+def build_estimator(job: Job) -> Any:
+    """The job's estimator, with the suite's ``n_components`` and the job's seed filled in.
+
+    ``n_components`` and ``random_state`` are set only where the estimator has them and the
+    suite did not fix them in the method's table.
+    """
+    from lowdim.methods import get_method, import_object
+
+    spec = job.method_spec
+    cls = get_method(spec["name"]) if "name" in spec else import_object(spec["import"])
+    params = job.method_params
+    estimator = cls(**params)
+    known = estimator.get_params(deep=False)
+    extra = {}
+    if "n_components" in known and "n_components" not in params:
+        extra["n_components"] = job.n_components
+    if "random_state" in known and "random_state" not in params:
+        extra["random_state"] = job.seed
+    return estimator.set_params(**extra) if extra else estimator
+
+
+def _reset_peak() -> bool:
+    """Reset the kernel's peak-RSS counter of this process (Linux); False when unavailable."""
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")
+        return True
+    except OSError:
+        return False
+
+
+def _peak_rss() -> int:
+    """Peak resident memory of this process in bytes (since the last reset, on Linux)."""
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+
+
+def _rss() -> int:
+    with open("/proc/self/statm") as fh:
+        return int(fh.read().split()[1]) * os.sysconf("SC_PAGE_SIZE")
+
+
+def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
+    """Load, fit and score one job in this process; return the embedding and the scores.
+
+    ``peak_mb`` is the memory the fit added: the peak resident set size during
+    ``fit_transform`` less the resident size just before it (the interpreter and the loaded
+    data are not counted), from the kernel's high-water mark ``VmHWM``.
+    """
+    from lowdim import datasets, metrics
+    from lowdim.methods import load_plugin
+
+    for path in plugins:
+        load_plugin(path)
+    started = _now()
+    with threadpool_limits(limits=job.threads), warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        data = datasets.load(dict(job.dataset_spec))
+        X = np.asarray(data.X, dtype=np.float64)
+        estimator = build_estimator(job)
+        _reset_peak()
+        before = _rss()
+        tic = time.perf_counter()
+        Y = estimator.fit_transform(X)
+        fit_seconds = time.perf_counter() - tic
+        peak_mb = max(0, _peak_rss() - before) / 2**20
+        # The kernel scale a rule picked, so the report can mark it on the sensitivity curves.
+        sigma = getattr(estimator, "bandwidth_", None)
+        if hasattr(Y, "toarray"):
+            Y = Y.toarray()
+        Y = np.asarray(Y, dtype=np.float64)
+        if Y.ndim != 2 or Y.shape[0] != X.shape[0]:
+            raise ValueError(
+                f"the method returned an embedding of shape {Y.shape} for {X.shape[0]} samples; "
+                "fit_transform must return one row per sample"
+            )
+        wanted = (
+            None if job.metrics is None else [m for m in job.metrics if m not in RUNNER_METRICS]
+        )
+        values: list[tuple[str, int, float]] = []
+        notes: list[str] = []
+        sample_size = None
+        if wanted is None or wanted:
+            scores = metrics.score_embedding(
+                X,
+                Y,
+                metrics=wanted,
+                ks=job.neighbors,
+                labels=data.labels,
+                truth=data.truth,
+                random_state=job.seed,
+            )
+            values = [(str(m), int(k or 0), float(v)) for m, k, v in scores.values]
+            notes = [str(n) for n in (scores.notes or [])]
+            sample_size = scores.sample_size
+    # Warnings (a disconnected graph, a solver fallback) belong to the job: kept in its notes
+    # rather than printed by every job process onto the terminal.
+    seen = [f"{w.category.__name__}: {w.message}" for w in caught]
+    notes = list(dict.fromkeys([*notes, *(" ".join(text.split()) for text in seen)]))
+    values += [("fit_seconds", 0, fit_seconds), ("peak_mb", 0, peak_mb)]
+    if isinstance(sigma, int | float | np.floating) and np.isfinite(sigma):
+        values.append(("bandwidth", 0, float(sigma)))
+    return {
+        "embedding": Y,
+        "values": values,
+        "notes": notes,
+        "sample_size": sample_size,
+        "fit_seconds": fit_seconds,
+        "peak_mb": peak_mb,
+        "n_samples": int(X.shape[0]),
+        "n_features": int(X.shape[1]),
+        "started": started,
+        "finished": _now(),
+    }
+
+
+def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | None = None) -> dict:
+    """Run one job under its limits in a child process; return the record for the store.
+
+    Never raises for a failing job: the record's ``status`` says what happened
+    (ok, failed, timeout, memory) and ``error`` why. ``watch`` is the driver's (host, pid):
+    on the same host, the job is abandoned when the driver dies.
+    """
+    started = _now()
+    watch_pid = watch[1] if watch is not None and watch[0] == socket.gethostname() else None
+    outcome = run_limited(
+        execute_job,
+        (job, tuple(plugins)),
+        timeout=job.timeout,
+        memory_limit=job.memory_limit,
+        watch_pid=watch_pid,
+    )
+    if outcome.abandoned and watch_pid != os.getpid():
+        # The driver is gone, so no one will read this record; a worker process left behind
+        # would idle for minutes.
+        os._exit(1)
+    record: dict[str, Any] = {
+        "job": job,
+        "status": outcome.status,
+        "error": outcome.error,
+        "traceback": outcome.traceback,
+        "embedding": None,
+        "values": [],
+        "notes": [],
+        "sample_size": None,
+        "fit_seconds": None,
+        "peak_mb": None,
+        "n_samples": None,
+        "n_features": None,
+        "started": started,
+        "finished": _now(),
+    }
+    if outcome.status == "ok":
+        record.update(outcome.value)
+    return record
