@@ -1,10 +1,9 @@
-"""Where methods break: breakdown points along stress axes, and stability across seeds.
+"""Where methods break: breakdown points along stress axes.
 
 A *stress axis* is a numeric dataset parameter (noise, n, ambient dimension, ...) that varies
 across the jobs of one dataset name in a run. Along it, each configuration's *breakdown point*
 is the first axis value where its score falls below a set fraction of its own best on that
-axis. *Seed stability* is the Procrustes disparity between a configuration's embeddings of
-the same points under different seeds.
+axis.
 """
 
 from __future__ import annotations
@@ -15,37 +14,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from lowdim.analysis.results import Results, _canonical, _json_dict
+from lowdim.analysis.results import Results
 
-__all__ = ["DatasetCache", "breakdown_point", "stress_axes", "breakdown_table", "seed_stability"]
+__all__ = ["BREAKDOWN_FRACTION", "breakdown_point", "stress_axes", "breakdown_table"]
 
-
-class DatasetCache:
-    """Reloads datasets from their stored specs, once each, for colouring and seed checks.
-
-    A dataset that cannot be reloaded (a user file moved since the run, a generator that is
-    gone) gives None and its message is kept in ``errors``: a report must still be written.
-    """
-
-    def __init__(self, max_cells: int = 5_000_000) -> None:
-        self.max_cells = max_cells
-        self.errors: dict[str, str] = {}
-        self._cache: dict[str, Any] = {}
-
-    def get(self, params: dict, n_cells: float = 0.0) -> Any:
-        key = _canonical(params)
-        if key not in self._cache:
-            self._cache[key] = None
-            if n_cells > self.max_cells:
-                self.errors[key] = f"not reloaded: {int(n_cells)} values is above the cap"
-                return None
-            try:
-                from lowdim.datasets import load
-
-                self._cache[key] = load(dict(params))
-            except Exception as exc:  # any failure to reload only costs a colour or a check
-                self.errors[key] = f"{type(exc).__name__}: {' '.join(str(exc).split())}"
-        return self._cache[key]
+BREAKDOWN_FRACTION = 0.8
+"""A method breaks down along a stress axis where its score falls below this share of its best."""
 
 
 def breakdown_point(
@@ -166,70 +140,3 @@ def breakdown_table(
 
 def _nan_if_none(value: Any) -> float:
     return math.nan if value is None else float(value)
-
-
-def seed_stability(results: Results, cache: DatasetCache | None = None) -> pd.DataFrame:
-    """Spread of each configuration's embeddings across seeds after Procrustes alignment.
-
-    The disparity of ``scipy.spatial.procrustes`` (both embeddings centred and scaled to unit
-    norm, then the best rotation, reflection and scale: the residual sum of squares, in
-    [0, 1]) against the first seed, averaged over the other seeds. Point-to-point alignment
-    needs the same points, so a dataset drawn anew for each seed is not measured.
-
-    Columns: ``dataset, method, n_seeds, disparity, note``.
-
-    References
-    ----------
-    .. [1] J. C. Gower, "Generalized Procrustes analysis", Psychometrika 40, 33-51, 1975.
-       https://doi.org/10.1007/BF02291478
-    """
-    from scipy.spatial import procrustes
-
-    cache = cache or DatasetCache()
-    jobs = results.jobs[results.jobs["status"] == "ok"].sort_values("seed")
-    same_data: dict[str, tuple[bool, str]] = {}
-    rows = []
-    for (data, method), group in jobs.groupby(["data", "config"], sort=True):
-        paths = [results.embedding_path(j) for j in group["job_id"]]
-        present = [p for p in paths if p.is_file()]
-        row = {"dataset": data, "method": method, "n_seeds": len(present), "disparity": math.nan}
-        if len(present) < 2:
-            rows.append({**row, "note": "fewer than two seeds with an embedding"})
-            continue
-        if data not in same_data:
-            same_data[data] = _same_points(jobs[jobs["data"] == data], cache)
-        same, why = same_data[data]
-        if not same:
-            rows.append({**row, "note": why})
-            continue
-        first = np.load(present[0])
-        values = []
-        for path in present[1:]:
-            other = np.load(path)
-            if other.shape != first.shape:
-                continue
-            try:
-                values.append(procrustes(first, other)[2])
-            except ValueError:  # a constant embedding has no shape to align
-                continue
-        note = "" if values else "embeddings could not be aligned (constant or mismatched)"
-        rows.append(
-            {**row, "disparity": float(np.mean(values)) if values else math.nan, "note": note}
-        )
-    return pd.DataFrame(rows, columns=["dataset", "method", "n_seeds", "disparity", "note"])
-
-
-def _same_points(jobs: pd.DataFrame, cache: DatasetCache) -> tuple[bool, str]:
-    raw = jobs.drop_duplicates("seed")
-    specs = [_json_dict(p) for p in raw["dataset_params"]]
-    if len({_canonical(s) for s in specs}) == 1:
-        return True, ""
-    arrays = []
-    for spec, n, d in zip(specs, raw["n_samples"], raw["n_features"], strict=True):
-        ds = cache.get(spec, float(n) * float(d) if pd.notna(n) and pd.notna(d) else 0.0)
-        if ds is None:
-            return False, "the data could not be reloaded to check that seeds share their points"
-        arrays.append(np.asarray(ds.X))
-    if all(a.shape == arrays[0].shape and np.array_equal(a, arrays[0]) for a in arrays[1:]):
-        return True, ""
-    return False, "the data are drawn anew for each seed, so embeddings have no common points"

@@ -8,8 +8,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from lowdim.analysis.breakdown import DatasetCache
-from lowdim.analysis.results import Results, _canonical
+from lowdim.analysis.results import Results, canonical
 
 __all__ = ["rnx_curves", "bandwidth_curves", "scaling_table", "loglog_slope", "gallery_panels"]
 
@@ -42,7 +41,7 @@ def bandwidth_curves(results: Results, table: pd.DataFrame, criterion: str) -> p
             if "bandwidth" in s
         ]
         held_of = {
-            c: _canonical({k: v for k, v in s.items() if k != "bandwidth"}) for c, s in specs
+            c: canonical({k: v for k, v in s.items() if k != "bandwidth"}) for c, s in specs
         }
         for held in sorted(set(held_of.values())):
             members = [(c, s["bandwidth"]) for c, s in specs if held_of[c] == held]
@@ -120,46 +119,39 @@ def scaling_table(results: Results) -> tuple[pd.DataFrame, pd.DataFrame]:
 
 
 def gallery_panels(
-    results: Results, cache: DatasetCache, max_datasets: int = 6, max_methods: int = 6
+    results: Results, leaders: list[str], max_datasets: int = 6
 ) -> tuple[list[dict], list[str]]:
-    """One seed's embeddings for up to ``max_datasets`` x ``max_methods`` panels.
+    """The first seed's embeddings of ``leaders`` on up to ``max_datasets`` datasets.
 
-    Panels are coloured by labels when the dataset has them, else by its first intrinsic
-    coordinate, else by row order (when the dataset cannot be reloaded). Returns the panels
-    and notes for the caption.
+    Each panel is coloured by what the runner stored for the job's data (the first intrinsic
+    coordinate, the labels, or the first principal component); nothing is reloaded. Returns
+    the panels (``dataset, method, Y, colour, kind``) and notes for the caption.
     """
-    ok = results.jobs[results.jobs["status"] == "ok"]
+    ok = results.jobs[(results.jobs["status"] == "ok") & results.jobs["config"].isin(leaders)]
     if ok.empty:
         return [], []
     seed = ok["seed"].min()
     first = ok[ok["seed"] == seed]
     datasets = list(dict.fromkeys(first["data"]))[:max_datasets]
-    methods = list(dict.fromkeys(first["config"]))[:max_methods]
     panels, notes = [], []
     for data in datasets:
-        rows = first[(first["data"] == data) & first["config"].isin(methods)]
-        if rows.empty:
-            continue
-        spec = json.loads(rows["dataset_params"].iloc[0])
-        cells = float(rows["n_samples"].iloc[0] or 0) * float(rows["n_features"].iloc[0] or 0)
-        ds = cache.get(spec, cells)
-        colour, kind = None, "order"
-        if ds is not None and getattr(ds, "labels", None) is not None:
-            colour, kind = np.asarray(ds.labels), "labels"
-        elif ds is not None and getattr(ds, "truth", None) is not None:
-            colour, kind = np.asarray(ds.truth, dtype=float).reshape(len(ds.X), -1)[:, 0], "truth"
-        elif ds is None:
-            notes.append(f"{data}: coloured by row order (the data could not be reloaded)")
-        else:
-            notes.append(f"{data}: coloured by row order (no labels or intrinsic coordinates)")
-        for _, job in rows.iterrows():
+        rows = first[first["data"] == data].set_index("config")
+        for method in leaders:
+            if method not in rows.index:
+                continue
+            job = rows.loc[method]
             path = results.embedding_path(job["job_id"])
             if not path.is_file():
+                notes.append(f"{method} on {data}: the embedding file is missing")
                 continue
             Y = np.load(path)
-            if Y.ndim != 2 or (colour is not None and len(colour) != len(Y)):
-                continue
+            stored = results.colours(job)
+            colour, kind = (None, "order") if stored is None else (stored[1], stored[0])
+            if colour is not None and len(colour) != len(Y):
+                colour, kind = None, "order"
+            if kind == "order":
+                notes.append(f"{data}: coloured by row order (no stored colours)")
             panels.append(
-                {"dataset": data, "method": job["config"], "Y": Y, "colour": colour, "kind": kind}
+                {"dataset": data, "method": method, "Y": Y, "colour": colour, "kind": kind}
             )
-    return panels, notes
+    return panels, list(dict.fromkeys(notes))

@@ -18,8 +18,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--select",
         metavar="CRITERION",
         default=None,
-        help="criterion that picks each method's best configuration in the tuned view, e.g. "
-        "rnx_auc or trustworthiness@10 (default: the first headline criterion)",
+        help="what picks the winner and each method's tuned configuration, instead of the "
+        "run's own choice: overall, or a criterion such as rnx_auc or trustworthiness@10",
     )
 
 

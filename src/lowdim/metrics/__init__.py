@@ -7,7 +7,13 @@ formulas, their sources and check values are in ``shared/REFERENCES.md``.
 """
 
 from lowdim.metrics._batch import Scores, score_embedding
-from lowdim.metrics._registry import Metric, get_metric, metric_names, register_metric
+from lowdim.metrics._registry import (
+    Metric,
+    default_headline,
+    get_metric,
+    metric_names,
+    register_metric,
+)
 from lowdim.metrics.coranking import lcmc, qnx, rnx, rnx_auc
 from lowdim.metrics.distances import StressParts, distance_spearman, stress, stress_parts
 from lowdim.metrics.labels import knn_accuracy, silhouette
@@ -19,6 +25,7 @@ __all__ = [
     "Metric",
     "Scores",
     "StressParts",
+    "default_headline",
     "get_metric",
     "metric_names",
     "register_metric",

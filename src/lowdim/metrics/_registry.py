@@ -7,9 +7,12 @@ from dataclasses import dataclass
 
 from lowdim.errors import InputError, suggestion
 
-__all__ = ["Metric", "register_metric", "get_metric", "metric_names"]
+__all__ = ["Metric", "SCOPES", "register_metric", "get_metric", "metric_names", "default_headline"]
 
 NEEDS = (None, "labels", "truth")
+# What a criterion looks at: neighbourhoods, distances between far points, the user's classes,
+# the generator's intrinsic coordinates, or the cost of the fit.
+SCOPES = ("local", "global", "labels", "truth", "cost")
 
 
 @dataclass(frozen=True)
@@ -38,6 +41,11 @@ class Metric:
         ``k_max(n)`` is the largest valid K for ``n`` samples.
     measured_by_runner : bool
         True for numbers the runner records (time, memory) rather than computes from X and Y.
+    scope : {"local", "global", "labels", "truth", "cost"}
+        What the criterion looks at; the recommendation contrasts local and global winners.
+    headline : int or None
+        Position among the default headline criteria (1 first), None when it is not one.
+        A suite that names no ``headline`` shows the defaults it scores, in this order.
     """
 
     name: str
@@ -50,6 +58,8 @@ class Metric:
     k_rule: str = ""
     k_max: Callable[[int], int] | None = None
     measured_by_runner: bool = False
+    scope: str = "local"
+    headline: int | None = None
 
 
 _METRICS: dict[str, Metric] = {}
@@ -84,14 +94,21 @@ def register_metric(
     k_rule: str = "",
     k_max: Callable[[int], int] | None = None,
     measured_by_runner: bool = False,
+    scope: str | None = None,
+    headline: int | None = None,
 ) -> Callable[[Callable[..., float]], Callable[..., float]]:
     """Decorator registering ``fn(X, Y, *, k=None, labels=None, truth=None) -> float``.
 
     Registering a name that is taken by another function is refused with a message naming
-    both.
+    both. ``scope`` defaults to ``"labels"`` or ``"truth"`` for criteria that need them,
+    ``"cost"`` for criteria the runner measures, and ``"local"`` otherwise.
     """
     if needs not in NEEDS:
         raise ValueError(f"`needs` must be one of {NEEDS}, got {needs!r}")
+    if scope is None:
+        scope = "cost" if measured_by_runner else needs or "local"
+    if scope not in SCOPES:
+        raise ValueError(f"`scope` must be one of {SCOPES}, got {scope!r}")
 
     def decorate(fn: Callable[..., float]) -> Callable[..., float]:
         taken = _METRICS.get(name)
@@ -112,6 +129,8 @@ def register_metric(
             k_rule=k_rule,
             k_max=k_max,
             measured_by_runner=measured_by_runner,
+            scope=scope,
+            headline=headline,
         )
         return fn
 
@@ -133,3 +152,9 @@ def metric_names() -> list[str]:
     """Names of the registered criteria: the built-ins first, then others as registered."""
     first = [name for name in _BUILT_IN_ORDER if name in _METRICS]
     return first + [name for name in _METRICS if name not in _BUILT_IN_ORDER]
+
+
+def default_headline() -> list[str]:
+    """Names of the default headline criteria, in their ``headline`` order."""
+    chosen = [m for m in _METRICS.values() if m.headline is not None]
+    return [m.name for m in sorted(chosen, key=lambda m: (m.headline, m.name))]

@@ -258,6 +258,7 @@ def lcmc(
 
 @register_metric(
     "rnx_auc",
+    headline=1,
     higher_is_better=True,
     source="Lee, Peluffo-Ordonez & Verleysen, Neurocomputing 169, 2015",
     description="R_NX(K) averaged over K = 1 .. n - 2 with weights 1/K (area under the curve "

@@ -121,6 +121,8 @@ def stress_parts(X: np.ndarray, Y: np.ndarray, subset: np.ndarray | None = None)
 
 @register_metric(
     "distance_spearman",
+    headline=6,
+    scope="global",
     higher_is_better=True,
     source="Spearman, Amer. J. Psychol. 15, 1904 (rank correlation of pairwise distances)",
     description="Spearman rank correlation between all pairwise distances in the input and in "
@@ -151,6 +153,7 @@ def distance_spearman(
 
 @register_metric(
     "stress",
+    scope="global",
     higher_is_better=False,
     source="Smelser, Miller & Kobourov, IEEE BELIV 2024 (arXiv 2408.07724)",
     description="normalized stress after rescaling the embedding optimally: 0 when its "

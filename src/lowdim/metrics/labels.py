@@ -109,6 +109,7 @@ def check_classes(n_classes: int, n: int, owner: str) -> None:
 
 @register_metric(
     "knn_accuracy",
+    headline=4,
     higher_is_better=True,
     needs="labels",
     uses_k=True,

@@ -103,6 +103,7 @@ def _context(
 
 @register_metric(
     "trustworthiness",
+    headline=2,
     higher_is_better=True,
     uses_k=True,
     k_rule=TC_RULE,
@@ -163,6 +164,7 @@ def trustworthiness(
 
 @register_metric(
     "continuity",
+    headline=3,
     higher_is_better=True,
     uses_k=True,
     k_rule=TC_RULE,

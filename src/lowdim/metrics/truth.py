@@ -51,6 +51,7 @@ def procrustes_mismatch(truth: np.ndarray, Y: np.ndarray) -> str | None:
 
 @register_metric(
     "truth_spearman",
+    headline=5,
     higher_is_better=True,
     needs="truth",
     source="Spearman, Amer. J. Psychol. 15, 1904 (against the intrinsic coordinates)",

@@ -28,8 +28,6 @@ References
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -43,12 +41,14 @@ import pandas as pd  # noqa: E402
 import seaborn as sns  # noqa: E402
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter  # noqa: E402
 
+from lowdim._files import atomic_path  # noqa: E402
+
 __all__ = [
     "PALETTE",
     "MARKERS",
     "style_for",
     "embedding_gallery",
-    "criterion_heatmap",
+    "gap_heatmap",
     "rnx_curves",
     "critical_difference_diagram",
     "bandwidth_sensitivity",
@@ -90,15 +90,11 @@ def _theme() -> None:
 def _save(fig: plt.Figure, path: Path) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=".png", dir=path.parent)
-    os.close(fd)
     try:
-        fig.savefig(tmp, dpi=_DPI, bbox_inches="tight", format="png")
-        os.replace(tmp, path)
+        with atomic_path(path) as temporary:
+            fig.savefig(temporary, dpi=_DPI, bbox_inches="tight", format="png")
     finally:
         plt.close(fig)
-        if os.path.exists(tmp):
-            os.remove(tmp)
     return path
 
 
@@ -124,12 +120,20 @@ def _method_styles(methods: list[str]) -> dict[str, dict[str, Any]]:
     return {m: style_for(i) for i, m in enumerate(methods)}
 
 
+_KIND_TEXT = {
+    "truth": "first intrinsic coordinate",
+    "labels": "class",
+    "pc1": "first principal component of the data",
+    "order": "row order",
+}
+
+
 def embedding_gallery(panels: list[dict], path: Path) -> Path | None:
-    """Datasets (rows) x methods (columns) of 2-D embeddings, one seed each.
+    """Datasets (rows) x configurations (columns) of 2-D embeddings, one seed each.
 
     Each panel is a dict with ``dataset``, ``method``, ``Y`` (n x d, d >= 1), ``colour``
-    (labels, a truth coordinate, or None) and ``kind`` (``"labels"``, ``"truth"`` or
-    ``"order"``: coloured by row order when the dataset could not be reloaded).
+    (values or None) and ``kind`` (``"truth"``, ``"labels"``, ``"pc1"`` or ``"order"``).
+    Each row ends with its key: a colour bar for continuous values, a legend for classes.
     """
     if not panels:
         return None
@@ -138,27 +142,54 @@ def embedding_gallery(panels: list[dict], path: Path) -> Path | None:
     methods = list(dict.fromkeys(p["method"] for p in panels))
     fig, axes = plt.subplots(
         len(datasets),
-        len(methods),
-        figsize=(1.9 * len(methods) + 0.6, 1.9 * len(datasets) + 0.4),
+        len(methods) + 1,
+        figsize=(1.9 * len(methods) + 1.9, 1.9 * len(datasets) + 0.4),
         squeeze=False,
+        gridspec_kw={"width_ratios": [1.0] * len(methods) + [0.55]},
     )
     for ax in axes.ravel():
         ax.set_axis_off()
+    keyed: set[str] = set()
     for p in panels:
-        ax = axes[datasets.index(p["dataset"]), methods.index(p["method"])]
+        row = datasets.index(p["dataset"])
+        ax = axes[row, methods.index(p["method"])]
         ax.set_axis_on()
         Y = np.asarray(p["Y"], dtype=float)
         y2 = Y[:, 1] if Y.shape[1] > 1 else np.zeros(len(Y))
         colour = p.get("colour")
         size = max(1.5, min(8.0, 4000.0 / max(len(Y), 1)))
+        key_ax = axes[row, -1]
         if p["kind"] == "labels" and colour is not None:
             classes = list(dict.fromkeys(np.asarray(colour).tolist()))
             codes = np.array([classes.index(c) for c in np.asarray(colour).tolist()])
             colours = np.array([PALETTE[c % len(PALETTE)] for c in codes])
             ax.scatter(Y[:, 0], y2, c=colours, s=size, linewidths=0, rasterized=True)
+            if p["dataset"] not in keyed:
+                handles = [
+                    plt.Line2D([], [], marker="o", linestyle="none", color=PALETTE[i % 8])
+                    for i in range(min(len(classes), 8))
+                ]
+                names = [_short(str(c), 14) for c in classes[:8]]
+                title = "class" + (f" (8 of {len(classes)})" if len(classes) > 8 else "")
+                key_ax.legend(
+                    handles,
+                    names,
+                    title=title,
+                    loc="center left",
+                    fontsize=6,
+                    title_fontsize=6,
+                    frameon=False,
+                )
         else:
             values = np.arange(len(Y)) if colour is None else np.asarray(colour, dtype=float)
-            ax.scatter(Y[:, 0], y2, c=values, cmap=_CMAP, s=size, linewidths=0, rasterized=True)
+            points = ax.scatter(
+                Y[:, 0], y2, c=values, cmap=_CMAP, s=size, linewidths=0, rasterized=True
+            )
+            if p["dataset"] not in keyed:
+                bar = fig.colorbar(points, ax=key_ax, fraction=0.5, aspect=12, location="left")
+                bar.set_label(_wrap(_KIND_TEXT.get(p["kind"], p["kind"]), 22), fontsize=6)
+                bar.ax.tick_params(labelsize=6)
+        keyed.add(p["dataset"])
         ax.set_xticks([])
         ax.set_yticks([])
         for spine in ax.spines.values():
@@ -186,33 +217,37 @@ def _short(text: str, width: int) -> str:
     return text if len(text) <= width else text[: width - 1] + "…"
 
 
-def criterion_heatmap(
-    summary: pd.DataFrame, criterion: str, higher: bool, path: Path
-) -> Path | None:
-    """Datasets x methods heat map of one criterion's mean over seeds, values printed."""
-    part = summary[summary["criterion"] == criterion]
+def gap_heatmap(gaps: pd.DataFrame, criterion: str, order: list[str], path: Path) -> Path | None:
+    """Datasets x configurations, each cell coloured by its gap to the best on that dataset.
+
+    ``gaps`` is :func:`lowdim.analysis.ranking.gaps_to_best` for one criterion; the cell shows
+    the gap in the criterion's units (0 = the best there). Configurations go in ``order``.
+    """
+    part = gaps[gaps["criterion"] == criterion]
     if part.empty:
         return None
     _theme()
-    wide = part.pivot_table(index="dataset", columns="method", values="mean", aggfunc="first")
-    fig, ax = plt.subplots(figsize=(1.0 + 0.95 * wide.shape[1], 0.9 + 0.42 * wide.shape[0]))
+    wide = part.pivot_table(index="dataset", columns="method", values="gap", aggfunc="first")
+    wide = wide.reindex(columns=[m for m in order if m in wide.columns])
+    fig, ax = plt.subplots(figsize=(1.4 + 0.8 * wide.shape[1], 1.0 + 0.42 * wide.shape[0]))
     sns.heatmap(
         wide,
         ax=ax,
-        cmap=_CMAP if higher else _CMAP + "_r",
+        cmap=_CMAP + "_r",
+        vmin=0.0,
         annot=wide.shape[0] * wide.shape[1] <= 400,
-        fmt=".3g",
+        fmt=".3f",
         annot_kws={"fontsize": 7},
         linewidths=0.5,
         linecolor="white",
-        cbar_kws={"label": f"{criterion} ({'higher' if higher else 'lower'} is better)"},
+        cbar_kws={"label": f"gap to the best on the dataset ({criterion})"},
     )
     ax.set_xlabel("")
     ax.set_ylabel("")
     ax.set_xticklabels(
         [_wrap(t.get_text(), 24) for t in ax.get_xticklabels()], rotation=30, ha="right"
     )
-    ax.set_title(f"{criterion}: mean over seeds (lighter is better)")
+    ax.set_title(f"{criterion}: distance from the best configuration (0 = best, darker = worse)")
     return _save(fig, path)
 
 
@@ -268,13 +303,14 @@ def _legend(fig: plt.Figure, ax: plt.Axes) -> None:
 
 
 def critical_difference_diagram(
-    mean_ranks: dict[str, float], cd: float, path: Path, title: str
+    mean_ranks: dict[str, float], cd: float, path: Path, title: str, stamp: str | None = None
 ) -> Path | None:
     """Mean ranks with a bar of half the critical difference on each side.
 
     Each method is one row, best (lowest mean rank) at the top. Two methods differ
     significantly (Nemenyi, at the level of ``cd``) exactly when their bars do not overlap;
-    a ruler of length CD is drawn above the axis.
+    a ruler of length CD is drawn above the axis. ``stamp`` (e.g. "not significant") is
+    written across the chart when the omnibus test did not reject, so the bars are not read.
     """
     if len(mean_ranks) < 2 or cd is None or not math.isfinite(cd):
         return None
@@ -308,6 +344,20 @@ def critical_difference_diagram(
     ax.set_ylim(k - 0.5, -1.4)
     ax.set_title(title, loc="left")
     ax.grid(axis="y", visible=False)
+    if stamp:
+        ax.text(
+            0.5,
+            0.5,
+            stamp,
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=15,
+            color=PALETTE[1],
+            alpha=0.8,
+            rotation=12,
+            bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": PALETTE[1]},
+        )
     return _save(fig, path)
 
 

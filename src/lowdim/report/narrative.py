@@ -1,159 +1,272 @@
-"""Plain-language readings of the numbers: statistics, and where each method helps or fails.
+"""The report's sentences, read off the :class:`Analysis`: the verdict and its strength, what
+each test says, and where each method helps and where it fails, with effect sizes.
 
-Every function returns plain text (sentences); the HTML layer escapes it.
+Every function returns plain text; the HTML layer escapes it. Nothing here ranks or tests:
+the numbers come from the engine, and a sentence never claims more than its blocks allow.
 """
 
 from __future__ import annotations
 
-import math
-
 import pandas as pd
 
-from lowdim.analysis.results import rank_table, significant_pairs
-from lowdim.report.tables import fmt
+from lowdim.analysis.engine import Analysis, CriterionTests
+from lowdim.report import format as fmt
+from lowdim.report.views import criterion_title
+from lowdim.run.settings import OVERALL
 
-__all__ = ["statistics_reading", "method_profiles"]
+__all__ = [
+    "blocks_phrase",
+    "test_form",
+    "verdict",
+    "strength",
+    "statistics_reading",
+    "effect_criterion",
+    "method_profiles",
+]
+
+_FORMS = {
+    "exact": "exact p, from every arrangement of the ranks",
+    "monte_carlo": "Monte Carlo p from {draws:,} random arrangements of the ranks",
+    "iman_davenport": "Iman-Davenport F approximation",
+    "chi_square": "chi-square approximation",
+    "none": "every block ties every configuration",
+}
 
 
-def _p(p: float | None) -> str:
-    if p is None:
-        return "n/a"
-    return "< 0.001" if p < 0.001 else f"= {p:.3f}"
+def blocks_phrase(an: Analysis, n: int | None = None) -> str:
+    """``"4 datasets"`` or ``"5 resamples of the file"``."""
+    n = len(an.blocks) if n is None else n
+    if an.settings.blocks == "resamples":
+        return f"{n} resample{'s' if n != 1 else ''} of the file"
+    return f"{n} dataset{'s' if n != 1 else ''}"
 
 
-def statistics_reading(key: str, entry: dict, alpha: float = 0.05) -> list[str]:
-    """What the Friedman test and the Nemenyi critical difference say about one criterion."""
-    n, k = entry["n_datasets"], entry["n_methods"]
-    if entry["p_value"] is None:
-        return [
-            f"{key}: no test is possible with {n} dataset(s) and {k} configuration(s); "
-            "at least 2 of each are needed."
-        ]
-    ranks = entry["mean_ranks"]
-    best = min(ranks, key=ranks.get)
-    f_text = (
-        "infinite (every dataset ranks them in the same order)"
-        if entry["iman_davenport_f"] is None and entry["iman_davenport_p"] == 0.0
-        else f"{fmt(entry['iman_davenport_f'])} (p {_p(entry['iman_davenport_p'])})"
-    )
-    out = [
-        f"{key}, over {n} datasets and {k} configurations: Friedman chi2 = "
-        f"{entry['friedman_chi2']:.2f} (p {_p(entry['p_value'])}), Iman-Davenport F = {f_text}."
-    ]
-    # Iman & Davenport's F is the less conservative form (Demšar 2006 recommends it).
-    p_test = (
-        entry["iman_davenport_p"] if entry["iman_davenport_p"] is not None else entry["p_value"]
-    )
-    if p_test >= alpha:
-        out.append(
-            f"At the {alpha:g} level the rankings are consistent with chance: no method can be "
-            f"called better on {key}, whatever the order of the mean ranks (best: {best}, "
-            f"{ranks[best]:.2f})."
+def test_form(tests: CriterionTests) -> str:
+    """How the Friedman p of ``tests`` was obtained, in words."""
+    f = tests.friedman
+    if f is None:
+        return "not run"
+    return _FORMS[f.p_method].format(draws=f.draws or 0)
+
+
+def _min_wilcoxon_p(n: int) -> float:
+    """The smallest two-sided p a Wilcoxon signed-rank test can give with n pairs (exact)."""
+    return min(1.0, 2.0 / 2**n) if n > 0 else 1.0
+
+
+def _units(key: str) -> str:
+    return "ranks" if key == OVERALL else ""
+
+
+def verdict(an: Analysis) -> str:
+    """One or two sentences: which configuration ranks first, on what, over what."""
+    if an.table.empty or an.winner is None:
+        return (
+            "No configuration finished with scores on any dataset, so there is no verdict; "
+            "the failures are listed below."
         )
-        if n < 5:
-            out.append(f"With only {n} datasets the test has little power; add datasets.")
-        return out
-    cd = entry["critical_difference"]
-    pairs = significant_pairs(entry)
-    out.append(
-        f"The rankings differ more than chance would give. Two configurations differ "
-        f"significantly (Nemenyi, {alpha:g}) when their mean ranks are more than CD = {cd:.2f} "
-        "apart."
+    winner = an.winner
+    k = len(an.order)
+    on = criterion_title(an.selection)
+    if an.selection == OVERALL:
+        on = f"the overall rank (the mean of its ranks on {len(an.headline)} headline criteria)"
+    tied = [m for m in an.tied_with_winner() if m != winner]
+    rank = an.selection_ranks.iloc[0]
+    text = (
+        f"{winner} ranks first of {k} configurations on {on} over {blocks_phrase(an)} "
+        f"(mean rank {fmt.rank(rank)})."
     )
-    if pairs:
-        shown = "; ".join(f"{a} ahead of {b} by {d:.2f}" for a, b, d in pairs[:8])
-        more = f" (and {len(pairs) - 8} more pairs)" if len(pairs) > 8 else ""
-        out.append(f"Significant pairs: {shown}{more}.")
+    if tied:
+        text += (
+            f" It ties with {_names(tied)}; it is named first by the tie-break rule: "
+            f"{an.settings.tie_break}."
+        )
+    return text
+
+
+def strength(an: Analysis) -> str:
+    """How strong the verdict is: which test, which blocks, and what the pair test says."""
+    tests = an.tests.get(an.selection)
+    if an.winner is None or tests is None:
+        return "Nothing was tested."
+    n = tests.n_blocks
+    alpha = an.settings.alpha
+    if n < 2:
+        return (
+            f"With {blocks_phrase(an, n)} there is nothing to test: this order is that of a "
+            "single block, and another dataset or sample could change it."
+        )
+    f = tests.friedman
+    what = f"Friedman's test with the {blocks_phrase(an, n)} as blocks ({test_form(tests)})"
+    if f is None:
+        omnibus = f"{what} could not be run."
+    elif tests.rejects:
+        omnibus = f"{what} finds that the configurations' ranks differ ({fmt.p_value(f.p_value)})."
+    else:
+        omnibus = (
+            f"{what} finds no difference among the configurations beyond chance "
+            f"({fmt.p_value(f.p_value)}), so the order is not established."
+        )
+    runner = an.runner_up
+    pair = tests.pair(runner) if runner else None
+    if runner is None or pair is None:
+        return omnibus
+    if _min_wilcoxon_p(pair.n_blocks) >= alpha:
+        return (
+            f"{omnibus} With {pair.n_blocks} blocks no pairwise test can reach {alpha:g} (the "
+            f"smallest two-sided Wilcoxon p is {_min_wilcoxon_p(pair.n_blocks):.3g}), so the "
+            f"lead over the runner-up, {runner}, is not established."
+        )
+    lead = _difference(pair.median_difference, an.selection)
+    if pair.p_holm < alpha:
+        return (
+            f"{omnibus} Against the runner-up, {runner}, the lead is significant (Wilcoxon "
+            f"signed-rank over {pair.n_blocks} blocks, Holm-adjusted {fmt.p_value(pair.p_holm)};"
+            f" median difference {lead})."
+        )
+    return (
+        f"{omnibus} Against the runner-up, {runner}, the lead is not significant (Wilcoxon "
+        f"signed-rank over {pair.n_blocks} blocks, Holm-adjusted {fmt.p_value(pair.p_holm)}; "
+        f"median difference {lead})."
+    )
+
+
+def _difference(value: float, key: str) -> str:
+    if key == OVERALL:
+        return f"{value:.2f} ranks"
+    return fmt.number(value)
+
+
+def _names(items: list[str], limit: int = 3) -> str:
+    items = list(items)
+    shown = ", ".join(items[:limit])
+    return shown + (f" and {len(items) - limit} more" if len(items) > limit else "")
+
+
+def statistics_reading(an: Analysis, key: str) -> list[str]:
+    """What Friedman's test, the Nemenyi critical difference and the pairwise tests say about
+    one criterion."""
+    tests = an.tests[key]
+    n, k = tests.n_blocks, tests.n_configurations
+    title = criterion_title(key)
+    if tests.friedman is None or n < 2:
+        return [
+            f"{title}: no test is possible with {blocks_phrase(an, n)} and {k} "
+            "configuration(s); at least 2 blocks and 2 configurations are needed."
+        ]
+    f = tests.friedman
+    out = [
+        f"{title}, over {blocks_phrase(an, n)} and {k} configurations: Friedman chi2 = "
+        f"{f.statistic:.2f}, {fmt.p_value(f.p_value)} ({test_form(tests)})."
+    ]
+    if not tests.rejects:
+        best = tests.mean_ranks.index[0]
+        out.append(
+            f"At the {tests.alpha:g} level the rankings are consistent with chance: no "
+            f"configuration can be called better on {title}, whatever the order of the mean "
+            f"ranks (best: {best}, {fmt.rank(tests.mean_ranks.iloc[0])})."
+        )
     else:
         out.append(
-            "Yet no single pair is more than CD apart: the overall difference cannot be "
-            "pinned on any two configurations with this many datasets."
+            f"The rankings differ more than chance would give. The Nemenyi critical difference "
+            f"is {tests.critical_difference:.2f} mean ranks; the pairwise Wilcoxon tests below "
+            "(Holm-adjusted) compare the winner with each other configuration."
         )
-    if n < 5:
-        out.append(f"With only {n} datasets, treat this as a hint and add datasets.")
+    significant = [p for p in tests.pairs if p.p_holm < tests.alpha]
+    if tests.pairs:
+        if significant:
+            out.append(
+                f"{an.winner} is significantly ahead of {_names([p.other for p in significant])}"
+                f" (Wilcoxon signed-rank, Holm-adjusted p < {tests.alpha:g})."
+            )
+        elif _min_wilcoxon_p(n) >= tests.alpha:
+            out.append(
+                f"With {n} blocks no pairwise test can reach {tests.alpha:g} (smallest possible "
+                f"p {_min_wilcoxon_p(n):.3g}); add datasets to tell configurations apart."
+            )
+        else:
+            out.append(f"No configuration is significantly behind {an.winner} on {title}.")
     return out
 
 
-def _family_ranks(tuned: pd.DataFrame, selection: str, higher: bool) -> pd.DataFrame:
-    return rank_table(tuned, selection, higher)
+def effect_criterion(an: Analysis) -> str:
+    """The criterion in whose units effects are stated: the selection, or the first headline
+    criterion when the selection is the overall rank."""
+    if an.selection != OVERALL:
+        return an.selection
+    return an.headline[0] if an.headline else ""
 
 
-def method_profiles(
-    tuned: pd.DataFrame,
-    selection: str,
-    higher: bool,
-    breakdown: pd.DataFrame,
-    failures: pd.DataFrame,
-    bandwidth: pd.DataFrame,
-    stability: pd.DataFrame,
-    family_of: dict[str, str],
-    fraction: float,
-) -> dict[str, list[str]]:
-    """For each method (family): best and worst datasets, breakdown points, failures,
-    bandwidth sensitivity and seed stability, in sentences."""
-    ranks = _family_ranks(tuned, selection, higher) if not tuned.empty else pd.DataFrame()
-    values = tuned[tuned["criterion"] == selection].set_index(["dataset", "method"])["mean"]
-    families = sorted(set(family_of.values()))
+def method_profiles(an: Analysis) -> dict[str, list[str]]:
+    """For each method family: where its best configuration is closest to and furthest from
+    the best configuration of the run (gaps in the criterion's units), breakdown points,
+    failures, bandwidth sensitivity and seed stability, in sentences."""
+    key = effect_criterion(an)
+    title = criterion_title(key)
+    gaps = an.gaps[an.gaps["criterion"] == key]
+    families = sorted({an.family(m) for m in an.order})
     out: dict[str, list[str]] = {}
     for fam in families:
+        configs = [m for m in an.order if an.family(m) == fam]
         lines: list[str] = []
-        if fam in ranks:
-            r = ranks[fam].dropna().sort_values()
-            k = ranks.shape[1]
-            if len(r) and r.min() == r.max():
+        part = gaps[gaps["method"].isin(configs)]
+        if not part.empty:
+            best_per = part.sort_values("gap").groupby("dataset", sort=True).head(1)
+            best_per = best_per.sort_values("gap")
+            first = best_per[best_per["gap"] <= 1e-12]
+            if len(first):
                 lines.append(
-                    f"Rank {r.min():g} of {k} on {selection} on every dataset "
-                    f"({_names(r.index.tolist())}: {_vals(values, r.index.tolist(), fam)})."
+                    f"Best of all configurations on {title} on {_names(list(first['dataset']))}"
+                    f" ({_value_list(first)})."
                 )
-            elif len(r):
-                best = r[r == r.min()].index.tolist()
-                worst = r[r == r.max()].index.tolist()
+            rest = best_per[best_per["gap"] > 1e-12]
+            if len(rest):
+                worst = rest.iloc[-1]
                 lines.append(
-                    f"Best results on {_names(best)} (rank {r.min():g} of {k} on {selection}, "
-                    f"{_vals(values, best, fam)})."
+                    f"Furthest from the best on {worst['dataset']}: {fmt.number(worst['mean'])}"
+                    f" against {fmt.number(worst['best'])} for {worst['best_method']} (a gap of "
+                    f"{fmt.number(worst['gap'])})."
                 )
-                lines.append(
-                    f"Weakest on {_names(worst)} (rank {r.max():g} of {k}, "
-                    f"{_vals(values, worst, fam)})."
-                )
-        configs = [c for c, f in family_of.items() if f == fam]
-        lines += _breakdown_lines(breakdown, configs, selection, fraction)
-        lines += _failure_lines(failures, fam)
-        lines += _bandwidth_lines(bandwidth, fam)
-        lines += _stability_lines(stability, configs)
+                if len(rest) > 1:
+                    lines.append(
+                        f"Median gap to the best over the {len(best_per)} datasets: "
+                        f"{fmt.number(float(best_per['gap'].median()))}."
+                    )
+        lines += _breakdown_lines(an, configs, key)
+        lines += _failure_lines(an.failures, fam)
+        lines += _bandwidth_lines(an.bandwidth, fam)
+        lines += _stability_lines(an.stability, configs)
         out[fam] = lines or ["No results for this method."]
     return out
 
 
-def _names(items: list[str]) -> str:
-    return ", ".join(items[:3]) + (f" and {len(items) - 3} more" if len(items) > 3 else "")
+def _value_list(rows: pd.DataFrame) -> str:
+    return ", ".join(fmt.number(v) for v in rows["mean"].head(3))
 
 
-def _vals(values: pd.Series, datasets: list[str], fam: str) -> str:
-    got = [values.get((d, fam), math.nan) for d in datasets[:3]]
-    return ", ".join(fmt(v) for v in got)
-
-
-def _breakdown_lines(breakdown: pd.DataFrame, configs: list[str], key: str, frac: float) -> list:
+def _breakdown_lines(an: Analysis, configs: list[str], key: str) -> list[str]:
+    breakdown = an.breakdown
     part = breakdown[breakdown["method"].isin(configs) & (breakdown["criterion"] == key)]
+    frac = an.fraction
     lines = []
     for (dataset, axis, held), g in part.groupby(["dataset", "axis", "held"], sort=True):
         where = f"along {axis} on {dataset}" + (f" [{held}]" if held else "")
         undefined = g[g["note"] != ""]
         broken = g[(g["note"] == "") & g["breakdown"].notna()]
         held_up = g[(g["note"] == "") & g["breakdown"].isna()]
-        clauses = []
-        for value, b in broken.groupby("breakdown", sort=True):
-            clauses.append(f"{_names(sorted(b['method']))} at {axis} = {value:g}")
+        clauses = [
+            f"{_names(sorted(b['method']))} at {axis} = {value:g}"
+            for value, b in broken.groupby("breakdown", sort=True)
+        ]
         if clauses:
             lines.append(
-                f"Breaks down {where}: " + "; ".join(clauses) + f" ({key} below {frac:.0%} "
-                "of the configuration's own best)."
+                f"Breaks down {where}: " + "; ".join(clauses) + f" ({criterion_title(key)} "
+                f"below {frac:.0%} of the configuration's own best)."
             )
         if not held_up.empty:
             top = max(v[-1] for v in held_up["values"])
             lines.append(
-                f"Holds up {where} ({_names(sorted(held_up['method']))}: {key} stays above "
+                f"Holds up {where} ({_names(sorted(held_up['method']))}: stays above "
                 f"{frac:.0%} of its best up to {axis} = {top:g})."
             )
         if not undefined.empty:
@@ -188,8 +301,8 @@ def _bandwidth_lines(bandwidth: pd.DataFrame, fam: str) -> list[str]:
         sub = f" [{held}]" if held else ""
         text = (
             f"Bandwidth{sub}: between the worst and the best fixed sigma the score moves by "
-            f"{fmt(spread)} on average over {per.ngroups} dataset(s); sigma = {sigma:g} is best "
-            f"on {wins} of them"
+            f"{fmt.number(spread)} on average over {per.ngroups} dataset(s); sigma = {sigma:g} "
+            f"is best on {wins} of them"
         )
         best = per.max()
         for rule, r in g[g["rule"] != ""].groupby("rule", sort=True):

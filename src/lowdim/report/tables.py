@@ -1,222 +1,307 @@
-"""Leaderboard files: CSV (long form), Markdown and LaTeX (booktabs, best per column bold)."""
+"""The machine-readable and printable files of a results folder, rendered from the Analysis.
+
+- ``leaderboard.csv``: long form at full precision, the verdict's order first;
+- ``leaderboard.md`` and ``leaderboard.tex``: the tables of :mod:`lowdim.report.views`;
+- ``stats.json``: the verdict, the blocks and every test;
+- ``scores.csv`` and ``scores.parquet``: every stored score of the latest run's jobs in long
+  form with display labels, the same rows in both (the Parquet twin when pyarrow is there).
+"""
 
 from __future__ import annotations
 
+import io
+import json
 import math
-import re
+from typing import Any
 
 import pandas as pd
 
-__all__ = ["fmt", "mean_sd", "leaderboard_csv", "leaderboard_markdown", "leaderboard_latex"]
+from lowdim.analysis.engine import Analysis, CriterionTests
+from lowdim.analysis.ranking import over_blocks, rank_table
+from lowdim.report import format as fmt
+from lowdim.report.narrative import blocks_phrase, strength, test_form, verdict
+from lowdim.report.views import (
+    Table,
+    criterion_title,
+    dataset_tables,
+    overall_table,
+    tuned_tables,
+)
+
+__all__ = [
+    "SCORE_COLUMNS",
+    "leaderboard_csv",
+    "leaderboard_markdown",
+    "leaderboard_latex",
+    "stats_json",
+    "scores_frame",
+    "scores_csv",
+    "scores_parquet",
+]
+
+SCORE_COLUMNS = ("job_id", "dataset", "method", "seed", "metric", "k", "value")
 
 
-def fmt(value: float, digits: int = 3) -> str:
-    """A number for a table: ``digits`` significant figures, a dash for NaN."""
+def _full(value: Any) -> str:
+    """A float at full precision (``repr`` round-trips float64); empty for a missing value."""
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "–"
-    return f"{value:.{digits}g}"
+        return ""
+    return repr(float(value))
 
 
-def mean_sd(mean: float, sd: float) -> str:
-    """``0.912 ± 0.004``; the mean alone when there is one seed."""
-    if sd is None or not math.isfinite(sd):
-        return fmt(mean)
-    return f"{fmt(mean)} ± {fmt(sd, 2)}"
+def leaderboard_csv(an: Analysis) -> str:
+    """Long form: the overall rows (each configuration's mean rank over the blocks and the mean
+    of its block means per criterion) in the verdict's order, then the per-block rows.
+
+    Columns: ``scope, place, configuration, method, dataset, criterion, mean, sd, n, rank``;
+    the first row names the winner on the selection.
+    """
+    rows = []
+    criteria = [an.selection] + [k for k in an.criteria if k != an.selection]
+    values = over_blocks(an.summary).set_index(["method", "criterion"])
+    ranks = {
+        k: rank_table(an.summary, k, an.directions[k], an.order).mean(axis=0) for k in criteria
+    }
+    for m in an.order:
+        for k in criteria:
+            v = values.loc[(m, k)] if (m, k) in values.index else None
+            rows.append(
+                {
+                    "scope": "overall",
+                    "place": an.position[m],
+                    "configuration": m,
+                    "method": an.family(m),
+                    "dataset": "",
+                    "criterion": k,
+                    "mean": _full(None if v is None else v["mean"]),
+                    "sd": _full(None if v is None else v["spread"]),
+                    "n": "" if v is None else int(v["n_blocks"]),
+                    "rank": _full(ranks[k].get(m, math.nan)),
+                }
+            )
+    for table in _block_rows(an, criteria):
+        rows.extend(table)
+    frame = pd.DataFrame(rows)
+    for col in ("place", "configuration", "method", "dataset"):
+        frame[col] = frame[col].map(fmt.csv_text)
+    return frame.to_csv(index=False, lineterminator="\n")
 
 
-def natural_key(text: str) -> list:
-    """Sort key putting ``n=40`` before ``n=160``: digit runs compare as numbers."""
-    return [
-        (0, float(t), "") if t[:1].isdigit() else (1, 0.0, t)
-        for t in re.findall(r"\d+(?:\.\d+)?|\D+", str(text))
-    ]
+def _block_rows(an: Analysis, criteria: list[str]) -> list[list[dict]]:
+    out = []
+    summary = an.summary
+    for dataset in an.blocks:
+        part = summary[summary["dataset"] == dataset]
+        rows = []
+        for k in criteria:
+            ranks = rank_table(part, k, an.directions[k], an.order)
+            if ranks.empty:
+                continue
+            r = ranks.iloc[0]
+            cells = part[part["criterion"] == k].set_index("method")
+            for m in sorted(an.order, key=lambda m: (r.get(m, math.inf), an.order.index(m))):
+                hit = cells.loc[m] if m in cells.index else None
+                rows.append(
+                    {
+                        "scope": "dataset",
+                        "place": "",
+                        "configuration": m,
+                        "method": an.family(m),
+                        "dataset": dataset,
+                        "criterion": k,
+                        "mean": _full(None if hit is None else hit["mean"]),
+                        "sd": _full(None if hit is None else hit["sd"]),
+                        "n": "" if hit is None else int(hit["n"]),
+                        "rank": _full(r.get(m, math.nan)),
+                    }
+                )
+        out.append(rows)
+    return out
 
 
-def natural_order(values: pd.Series) -> pd.Series:
-    """:func:`natural_key` for ``DataFrame.sort_values(key=...)``."""
-    order = {v: i for i, v in enumerate(sorted(set(values), key=natural_key))}
-    return values.map(order)
+def _md_table(table: Table) -> list[str]:
+    def cell(c: dict) -> str:
+        text = fmt.md_text(c["text"])
+        return f"**{text}**" if c["best"] else text
 
-
-def leaderboard_csv(board: pd.DataFrame) -> str:
-    """The long-form leaderboard with values at full precision (``repr`` round-trips)."""
-    out = board.copy()
-    for col in ("mean", "sd", "rank"):
-        out[col] = [repr(float(v)) if pd.notna(v) else "" for v in out[col]]
-    return out.to_csv(index=False, lineterminator="\n")
-
-
-def _best(values: pd.Series, higher: bool) -> set:
-    finite = values.dropna()
-    if finite.empty:
-        return set()
-    target = finite.max() if higher else finite.min()
-    return set(finite.index[finite == target])
-
-
-def _md_cell(text: str) -> str:
-    return str(text).replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
-
-
-def _md_table(header: list[str], rows: list[list[str]]) -> list[str]:
-    lines = ["| " + " | ".join(_md_cell(h) for h in header) + " |"]
-    lines.append("| " + " | ".join(["---"] + ["---:"] * (len(header) - 1)) + " |")
-    lines.extend("| " + " | ".join(_md_cell(c) for c in row) + " |" for row in rows)
+    lines = ["| " + " | ".join(fmt.md_text(h) for h in table.header) + " |"]
+    aligns = ["---:" if h == "place" else "---" for h in table.header[:2]]
+    lines.append("| " + " | ".join(aligns + ["---:"] * (len(table.header) - 2)) + " |")
+    lines += ["| " + " | ".join(cell(c) for c in row) + " |" for row in table.rows]
     return lines
 
 
-def _per_dataset(board: pd.DataFrame, dataset: str, keys: list[str]) -> pd.DataFrame:
-    part = board[(board["scope"] == "dataset") & (board["dataset"] == dataset)]
-    return part[part["criterion"].isin(keys)]
-
-
-def leaderboard_markdown(
-    board: pd.DataFrame,
-    overall: pd.Series,
-    keys: list[str],
-    criteria: dict[str, bool],
-    tuned: pd.DataFrame,
-    selection: str,
-) -> str:
-    """Mean ranks, then one table per dataset, then the tuned view, best values in bold."""
-    lines = ["# Leaderboard", ""]
-    lines.append(
-        "Mean rank over datasets per criterion (1 = best, ties averaged); `overall` is the mean "
-        "over the criteria shown. Every configuration of every method is ranked."
-    )
-    lines.append("")
-    ranks = board[board["scope"] == "overall"].pivot_table(
-        index="method", columns="criterion", values="rank", aggfunc="first"
-    )
-    rows = []
-    for method in overall.index:
-        cells = [method]
-        for key in keys:
-            value = ranks.at[method, key] if key in ranks and method in ranks.index else math.nan
-            best = key in ranks and value == ranks[key].min()
-            text = "–" if not math.isfinite(value) else f"{value:.2f}"
-            cells.append(f"**{text}**" if best else text)
-        cells.append(f"{overall[method]:.2f}")
-        rows.append(cells)
-    lines += _md_table(["method", *keys, "overall"], rows) + [""]
-    for dataset in sorted(
-        board.loc[board["scope"] == "dataset", "dataset"].unique(), key=natural_key
-    ):
-        part = _per_dataset(board, dataset, keys)
-        lines += [f"## {_md_cell(dataset)}", ""]
-        lines += _md_table(["method", *keys], _cells(part, keys, criteria, bold=("**", "**")))
-        lines.append("")
-    if not tuned.empty:
+def leaderboard_markdown(an: Analysis) -> str:
+    """The verdict, the leaderboard, one table per dataset, then the tuned view."""
+    lines = ["# Leaderboard", "", fmt.md_text(verdict(an)), "", fmt.md_text(strength(an)), ""]
+    board = overall_table(an)
+    lines += _md_table(board) + ["", fmt.md_text(board.note), ""]
+    for table in dataset_tables(an):
+        lines += [f"## {fmt.md_text(table.title)}", ""] + _md_table(table)
+        lines += ["", fmt.md_text(table.note), ""]
+    tuned = tuned_tables(an)
+    if tuned:
+        title = criterion_title(an.selection)
         lines += [
-            f"## Tuned view: each method's best configuration per dataset by `{selection}`",
+            f"## Tuned view: each method's best configuration per dataset by {title}",
+            "",
+            f"Caution: the configurations were chosen on {title}, so this view flatters "
+            "every method (the pick was made on the very numbers shown).",
             "",
         ]
-        lines.append(
-            f"Caution: the configurations were chosen on `{selection}`, so its column here is "
-            "optimistic (chosen on the very numbers it reports)."
-        )
-        lines.append("")
-        for dataset in sorted(tuned["dataset"].unique(), key=natural_key):
-            part = tuned[(tuned["dataset"] == dataset) & tuned["criterion"].isin(keys)]
-            pick = part.drop_duplicates("method").set_index("method")["configuration"]
-            lines += [f"### {_md_cell(dataset)}", ""]
-            header = ["method", "configuration", *keys]
-            body = _cells(part.assign(rank=math.nan), keys, criteria, bold=("**", "**"))
-            lines += _md_table(header, [[r[0], pick.get(r[0], ""), *r[1:]] for r in body])
-            lines.append("")
+        for table in tuned:
+            lines += [f"### {fmt.md_text(table.title)}", ""] + _md_table(table) + [""]
     return "\n".join(lines)
 
 
-def _cells(part: pd.DataFrame, keys: list[str], criteria: dict[str, bool], bold: tuple) -> list:
-    rows = []
-    methods = sorted(part["method"].unique())
-    best = {
-        k: _best(part[part["criterion"] == k].set_index("method")["mean"], criteria[k])
-        for k in keys
-    }
-    for method in methods:
-        cells = [method]
-        for key in keys:
-            hit = part[(part["method"] == method) & (part["criterion"] == key)]
-            if hit.empty or pd.isna(hit["mean"].iloc[0]):
-                cells.append("–")
-                continue
-            r = hit.iloc[0]
-            text = mean_sd(r["mean"], r["sd"])
-            if pd.notna(r.get("rank", math.nan)):
-                text += f" ({r['rank']:g})"
-            cells.append(f"{bold[0]}{text}{bold[1]}" if method in best[key] else text)
-        rows.append(cells)
-    return rows
+def _tex_cell(c: dict) -> str:
+    text = fmt.tex_text(c["text"]).replace(" ± ", r" $\pm$ ").replace("–", "--")
+    return f"\\textbf{{{text}}}" if c["best"] else text
 
 
-_TEX = {
-    "\\": r"\textbackslash{}",
-    "&": r"\&",
-    "%": r"\%",
-    "$": r"\$",
-    "#": r"\#",
-    "_": r"\_",
-    "{": r"\{",
-    "}": r"\}",
-    "~": r"\textasciitilde{}",
-    "^": r"\textasciicircum{}",
-    "<": r"\textless{}",
-    ">": r"\textgreater{}",
-}
-
-
-def tex_escape(text: str) -> str:
-    """Escape LaTeX's special characters in user-supplied text."""
-    return "".join(_TEX.get(ch, ch) for ch in str(text))
-
-
-def leaderboard_latex(
-    board: pd.DataFrame, overall: pd.Series, keys: list[str], criteria: dict[str, bool]
-) -> str:
-    """A booktabs table: one block per dataset (mean ± sd over seeds, best per column bold),
-    then the mean ranks. Needs ``\\usepackage{booktabs}``."""
-    cols = "ll" + "r" * len(keys)
-    head = " & ".join(
-        ["dataset", "method"]
-        + [tex_escape(k) + (r" $\uparrow$" if criteria[k] else r" $\downarrow$") for k in keys]
-    )
+def leaderboard_latex(an: Analysis) -> str:
+    """A booktabs table: the leaderboard in the verdict's order, then one block per dataset.
+    Needs ``\\usepackage{booktabs}``."""
+    board = overall_table(an)
+    width = len(board.header)
     lines = [
         "% lowdim leaderboard; needs \\usepackage{booktabs}",
-        f"\\begin{{tabular}}{{{cols}}}",
+        f"% {verdict(an)}".replace("\n", " "),
+        f"\\begin{{tabular}}{{rl{'r' * (width - 2)}}}",
         "\\toprule",
-        head + " \\\\",
+        " & ".join(fmt.tex_text(h) for h in board.header) + " \\\\",
         "\\midrule",
     ]
-    datasets = sorted(board.loc[board["scope"] == "dataset", "dataset"].unique(), key=natural_key)
-    for i, dataset in enumerate(datasets):
-        part = _per_dataset(board, dataset, keys).assign(rank=math.nan)
-        for j, row in enumerate(_cells(part, keys, criteria, bold=("\\textbf{", "}"))):
-            name = tex_escape(dataset) if j == 0 else ""
-            cells = [_tex_value(c) for c in row[1:]]
-            lines.append(" & ".join([name, tex_escape(row[0]), *cells]) + " \\\\")
-        if i < len(datasets) - 1:
-            lines.append("\\midrule")
-    ranks = board[board["scope"] == "overall"].pivot_table(
-        index="method", columns="criterion", values="rank", aggfunc="first"
-    )
-    lines.append("\\midrule")
-    for j, method in enumerate(overall.index):
-        cells = []
-        for key in keys:
-            value = ranks.at[method, key] if key in ranks and method in ranks.index else math.nan
-            text = fmt(value, 3)
-            cells.append(
-                f"\\textbf{{{text}}}" if key in ranks and value == ranks[key].min() else text
-            )
-        label = "mean rank" if j == 0 else ""
-        lines.append(" & ".join([label, tex_escape(method), *cells]) + " \\\\")
+    lines += [" & ".join(_tex_cell(c) for c in row) + " \\\\" for row in board.rows]
     lines += ["\\bottomrule", "\\end{tabular}", ""]
+    for table in dataset_tables(an):
+        cols = "l" + "r" * (len(table.header) - 1)
+        lines += [
+            f"% {fmt.tex_text(table.title)}",
+            f"\\begin{{tabular}}{{{cols}}}",
+            "\\toprule",
+            f"\\multicolumn{{{len(table.header)}}}{{l}}{{{fmt.tex_text(table.title)}}} \\\\",
+            " & ".join(fmt.tex_text(h) for h in table.header) + " \\\\",
+            "\\midrule",
+        ]
+        lines += [" & ".join(_tex_cell(c) for c in row) + " \\\\" for row in table.rows]
+        lines += ["\\bottomrule", "\\end{tabular}", ""]
     return "\n".join(lines)
 
 
-def _tex_value(cell: str) -> str:
-    bold = cell.startswith("\\textbf{")
-    inner = cell[len("\\textbf{") : -1] if bold else cell
-    inner = inner.replace(" ± ", r" $\pm$ ").replace("–", "--")
-    return f"\\textbf{{{inner}}}" if bold else inner
+def _finite(value: Any) -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _test_entry(an: Analysis, tests: CriterionTests) -> dict:
+    f = tests.friedman
+    entry: dict[str, Any] = {
+        "higher_is_better": tests.higher_is_better,
+        "n_blocks": tests.n_blocks,
+        "n_configurations": tests.n_configurations,
+        "mean_ranks": {m: float(r) for m, r in tests.mean_ranks.items()},
+        "friedman": None,
+        "nemenyi": None,
+        "pairwise": None,
+    }
+    if f is not None:
+        entry["friedman"] = {
+            "statistic": f.statistic,
+            "p_value": f.p_value,
+            "p_method": f.p_method,
+            "p_method_text": test_form(tests),
+            "monte_carlo_draws": f.draws,
+            "chi2_p": f.chi2_p,
+            "iman_davenport_f": _finite(f.iman_davenport_f),
+            "iman_davenport_p": _finite(f.iman_davenport_p),
+            "rejects": tests.rejects,
+        }
+        entry["nemenyi"] = {
+            "alpha": tests.alpha,
+            "q_alpha": tests.q_alpha,
+            "critical_difference": tests.critical_difference,
+        }
+    if tests.pairs:
+        entry["pairwise"] = {
+            "test": "Wilcoxon signed-rank, two-sided, on the paired block values; Holm's "
+            "correction over the comparisons of the winner with each other configuration",
+            "against": an.winner,
+            "pairs": [
+                {
+                    "other": p.other,
+                    "n_blocks": p.n_blocks,
+                    "statistic": p.statistic,
+                    "p_value": p.p_value,
+                    "p_holm": p.p_holm,
+                    "method": p.method,
+                    "median_difference": p.median_difference,
+                }
+                for p in tests.pairs
+            ],
+        }
+    return entry
+
+
+def stats_json(an: Analysis) -> str:
+    """The verdict and every test, as documented in DEVELOPERS.md (``stats.json``)."""
+    data = {
+        "winner": an.winner,
+        "order": [{"place": an.position[m], "configuration": m} for m in an.order],
+        "verdict": verdict(an),
+        "strength": strength(an),
+        "selection": an.selection,
+        "headline": an.headline,
+        "alpha": an.settings.alpha,
+        "tie_break": an.settings.tie_break,
+        "blocks": {
+            "kind": an.settings.blocks,
+            "description": blocks_phrase(an),
+            "names": an.blocks,
+            "n": len(an.blocks),
+        },
+        "criteria": {key: _test_entry(an, an.tests[key]) for key in an.criteria},
+    }
+    return json.dumps(data, indent=2, allow_nan=False) + "\n"
+
+
+def scores_frame(an: Analysis) -> pd.DataFrame:
+    """Every stored score of the run's jobs, long form, with display labels, sorted."""
+    jobs = an.results.jobs[["job_id", "data", "config", "seed"]]
+    rows = an.results.scores.merge(jobs, on="job_id", how="inner")
+    rows = rows.sort_values(["data", "config", "seed", "metric", "k"], kind="stable")
+    return pd.DataFrame(
+        {
+            "job_id": rows["job_id"].astype(str),
+            "dataset": rows["data"].astype(str),
+            "method": rows["config"].astype(str),
+            "seed": rows["seed"].astype("int64"),
+            "metric": rows["metric"].astype(str),
+            "k": rows["k"].astype("int64"),
+            "value": rows["value"].astype(float),
+        }
+    ).reset_index(drop=True)
+
+
+def scores_csv(frame: pd.DataFrame) -> str:
+    """The CSV of :func:`scores_frame` (values with ``repr``, labels neutralised)."""
+    out = frame.copy()
+    for col in ("dataset", "method", "metric"):
+        out[col] = out[col].map(fmt.csv_text)
+    out["value"] = [_full(v) for v in out["value"]]
+    buffer = io.StringIO()
+    out.to_csv(buffer, index=False, lineterminator="\n")
+    return buffer.getvalue()
+
+
+def scores_parquet(frame: pd.DataFrame) -> bytes | None:
+    """The Parquet twin of :func:`scores_csv` (same rows, typed columns); None without pyarrow."""
+    try:
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+    except ImportError:
+        return None
+    sink = io.BytesIO()
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), sink)
+    return sink.getvalue()

@@ -32,6 +32,7 @@ from pathlib import Path
 from lowdim import __version__
 from lowdim.errors import InputError
 from lowdim.run.limits import available_cores
+from lowdim.run.settings import resolve_settings
 from lowdim.run.store import Store
 from lowdim.run.suites import Job, Suite
 from lowdim.run.worker import run_job
@@ -52,7 +53,6 @@ class RunSummary:
     skipped: int
     counts: dict[str, int] = field(default_factory=dict)
     seconds: float = 0.0
-    exports: tuple[Path, ...] = ()
 
     @property
     def ran(self) -> int:
@@ -190,6 +190,8 @@ def run_suite(
     retry: bool = False,
     plugins: tuple[str, ...] | list[str] = (),
     command: str | None = None,
+    context: dict | None = None,
+    blocks: str = "datasets",
 ) -> RunSummary:
     """Run every job of ``suite`` not yet in ``out_dir``'s store, record it, export the scores.
 
@@ -216,6 +218,10 @@ def run_suite(
         Plugin files that register methods; every job process loads them again.
     command : str, optional
         The command line to record; defaults to ``sys.argv``.
+    context : dict, optional
+        What a comparison found in its data, kept in the run's settings record.
+    blocks : {"datasets", "resamples"}, default="datasets"
+        What the blocks of the run's tests are (see :mod:`lowdim.run.settings`).
 
     Returns
     -------
@@ -225,6 +231,7 @@ def run_suite(
 
     n_jobs = _check_parallel(n_jobs, backend, suite.threads)
     plugins = tuple(str(Path(p).resolve()) for p in plugins)
+    settings = resolve_settings(suite, context=context, blocks=blocks)
     jobs = suite.jobs()
     out_dir = Path(out_dir)
     tic = time.monotonic()
@@ -239,6 +246,7 @@ def run_suite(
             environment=environment(
                 n_jobs=n_jobs, backend=backend, threads=suite.threads, scheduler=scheduler
             ),
+            settings=settings.to_json(),
             planned=[(j.job_id, j.dataset_label, j.method_label, j.seed) for j in jobs],
         )
         log.info(
@@ -278,7 +286,6 @@ def run_suite(
         finally:
             bar.close()
         store.finish_run(run_id)
-        exports = tuple(store.export_scores())
     return RunSummary(
         out_dir=out_dir,
         run_id=run_id,
@@ -286,5 +293,4 @@ def run_suite(
         skipped=len(jobs) - len(todo),
         counts=dict(counts),
         seconds=time.monotonic() - tic,
-        exports=exports,
     )

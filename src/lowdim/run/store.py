@@ -6,22 +6,29 @@ job or none of it. Its embedding is written to a temporary name and renamed into
 ``embeddings/<job_id>.npy`` *before* that transaction, so a row never points at a missing or
 half-written file (a file without a row, left by a kill in between, is overwritten on resume).
 
-Schema (see DEVELOPERS.md; ``notes`` and the ``planned`` table are additions)::
+What the report needs from the data is stored at job time, so a report never regenerates a
+dataset: ``data_fingerprint`` (a hash of the job's data matrix; equal fingerprints mean the
+same points, which is what seed stability needs) and ``colour`` (``"<kind>:<hash>"`` naming
+``colours/<hash>.npy``, the values that colour the job's points in the gallery: the first
+intrinsic coordinate, the class labels, or the first principal component).
+
+Schema (see DEVELOPERS.md; ``notes``, the fingerprint, the colour, the run's ``settings``
+record and the ``planned`` table are additions)::
 
     jobs(job_id PRIMARY KEY, dataset, dataset_label, dataset_params, method, method_label,
          method_params, seed, n_components, status, error, notes, fit_seconds, peak_mb,
-         n_samples, n_features, sample_size, started, finished, lowdim_version, run_id)
+         n_samples, n_features, sample_size, started, finished, lowdim_version, run_id,
+         data_fingerprint, colour)
     scores(job_id, metric, k, value, PRIMARY KEY (job_id, metric, k))
     runs(run_id PRIMARY KEY, command, suite_name, suite_path, suite_text, environment,
-         started, finished)
+         started, finished, settings)
     planned(run_id, job_id, dataset_label, method_label, seed, PRIMARY KEY (run_id, job_id))
 """
 
 from __future__ import annotations
 
-import csv
+import hashlib
 import json
-import os
 import sqlite3
 from collections.abc import Iterable, Iterator
 from datetime import UTC, datetime
@@ -31,8 +38,9 @@ from typing import Any
 import numpy as np
 
 from lowdim import __version__
+from lowdim._files import atomic_path
 
-__all__ = ["Store", "STORE_NAME", "SCORE_COLUMNS", "STATUSES"]
+__all__ = ["Store", "STORE_NAME", "SCORE_COLUMNS", "STATUSES", "colour_ref"]
 
 STORE_NAME = "store.sqlite"
 STATUSES = ("ok", "failed", "timeout", "memory")
@@ -60,6 +68,8 @@ _JOB_COLUMNS = (
     "finished",
     "lowdim_version",
     "run_id",
+    "data_fingerprint",
+    "colour",
 )
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS jobs (
@@ -83,7 +93,9 @@ CREATE TABLE IF NOT EXISTS jobs (
     started TEXT,
     finished TEXT,
     lowdim_version TEXT NOT NULL,
-    run_id INTEGER
+    run_id INTEGER,
+    data_fingerprint TEXT,
+    colour TEXT
 );
 CREATE TABLE IF NOT EXISTS scores (
     job_id TEXT NOT NULL,
@@ -100,7 +112,8 @@ CREATE TABLE IF NOT EXISTS runs (
     suite_text TEXT,
     environment TEXT,
     started TEXT,
-    finished TEXT
+    finished TEXT,
+    settings TEXT
 );
 CREATE TABLE IF NOT EXISTS planned (
     run_id INTEGER NOT NULL,
@@ -117,8 +130,22 @@ def _now() -> str:
     return datetime.now(UTC).isoformat(timespec="milliseconds")
 
 
+# Columns added after the first stores were written: an older store gains them on opening.
+_ADDED_COLUMNS = {
+    "jobs": (("data_fingerprint", "TEXT"), ("colour", "TEXT")),
+    "runs": (("settings", "TEXT"),),
+}
+
+
 def _json(value: Any) -> str:
     return json.dumps(value, sort_keys=True, default=str)
+
+
+def colour_ref(kind: str, values: np.ndarray) -> str:
+    """``"<kind>:<hash>"`` for a colour vector: equal vectors share one file."""
+    digest = hashlib.sha256(np.ascontiguousarray(values).tobytes())
+    digest.update(str(values.dtype).encode())
+    return f"{kind}:{digest.hexdigest()[:20]}"
 
 
 class Store:
@@ -132,13 +159,21 @@ class Store:
     create : bool, default=True
         Create the folder and the schema when missing; with False a missing store raises
         FileNotFoundError (for read-only commands such as ``lowdim status``).
+    read_only : bool, default=False
+        Open the database read-only (the analysis engine's reader); a missing store raises
+        FileNotFoundError.
     """
 
-    def __init__(self, folder: str | Path, *, create: bool = True) -> None:
+    def __init__(
+        self, folder: str | Path, *, create: bool = True, read_only: bool = False
+    ) -> None:
         self.folder = Path(folder)
         self.path = self.folder / STORE_NAME
-        if not create and not self.path.is_file():
+        if (read_only or not create) and not self.path.is_file():
             raise FileNotFoundError(2, "no results store in this folder", str(self.path))
+        if read_only:
+            self.db = sqlite3.connect(f"{self.path.resolve().as_uri()}?mode=ro", uri=True)
+            return
         if create:
             self.folder.mkdir(parents=True, exist_ok=True)
         # autocommit mode: transactions are opened explicitly, one per finished job.
@@ -147,6 +182,14 @@ class Store:
             self.db.execute("PRAGMA journal_mode=WAL")
             self.db.execute("PRAGMA synchronous=FULL")
             self.db.executescript(_SCHEMA)
+            self._add_missing_columns()
+
+    def _add_missing_columns(self) -> None:
+        for table, columns in _ADDED_COLUMNS.items():
+            have = {row[1] for row in self.db.execute(f"PRAGMA table_info({table})")}
+            for name, kind in columns:
+                if name not in have:
+                    self.db.execute(f"ALTER TABLE {table} ADD COLUMN {name} {kind}")
 
     def close(self) -> None:
         self.db.close()
@@ -161,6 +204,14 @@ class Store:
     def embeddings(self) -> Path:
         return self.folder / "embeddings"
 
+    @property
+    def colours(self) -> Path:
+        return self.folder / "colours"
+
+    def colour_path(self, ref: str) -> Path:
+        """The file of a job's ``colour`` reference."""
+        return self.colours / f"{ref.partition(':')[2]}.npy"
+
     def statuses(self) -> dict[str, str]:
         """``job_id -> status`` of every finished job."""
         return dict(self.db.execute("SELECT job_id, status FROM jobs"))
@@ -173,16 +224,26 @@ class Store:
         suite_path: str,
         suite_text: str,
         environment: dict,
+        settings: str,
         planned: Iterable[tuple[str, str, str, int]] = (),
     ) -> int:
-        """Record a run's start and the jobs it plans; return its ``run_id``."""
+        """Record a run's start, its settings record (JSON) and the jobs it plans; return its
+        ``run_id``."""
         db = self.db
         db.execute("BEGIN IMMEDIATE")
         try:
             cur = db.execute(
                 "INSERT INTO runs (command, suite_name, suite_path, suite_text, environment, "
-                "started) VALUES (?, ?, ?, ?, ?, ?)",
-                (command, suite_name, suite_path, suite_text, _json(environment), _now()),
+                "started, settings) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                (
+                    command,
+                    suite_name,
+                    suite_path,
+                    suite_text,
+                    _json(environment),
+                    _now(),
+                    settings,
+                ),
             )
             run_id = int(cur.lastrowid)
             db.executemany(
@@ -198,15 +259,10 @@ class Store:
     def finish_run(self, run_id: int) -> None:
         self.db.execute("UPDATE runs SET finished = ? WHERE run_id = ?", (_now(), run_id))
 
-    def _write_embedding(self, job_id: str, embedding: np.ndarray) -> None:
-        self.embeddings.mkdir(exist_ok=True)
-        final = self.embeddings / f"{job_id}.npy"
-        temporary = self.embeddings / f".{job_id}.{os.getpid()}.tmp"
-        with open(temporary, "wb") as fh:
-            np.save(fh, embedding)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(temporary, final)
+    def _write_array(self, path: Path, values: np.ndarray) -> None:
+        path.parent.mkdir(exist_ok=True)
+        with atomic_path(path) as temporary, open(temporary, "wb") as fh:
+            np.save(fh, values)
 
     def record(self, result: dict, run_id: int | None = None) -> None:
         """Write one finished job: its embedding file, then its row and scores in one transaction.
@@ -217,7 +273,13 @@ class Store:
         job = result["job"]
         ok = result["status"] == "ok" and result.get("embedding") is not None
         if ok:
-            self._write_embedding(job.job_id, result["embedding"])
+            self._write_array(self.embeddings / f"{job.job_id}.npy", result["embedding"])
+        colour = None
+        if result.get("colour") is not None:
+            kind, values = result["colour"]
+            colour = colour_ref(kind, values)
+            if not self.colour_path(colour).is_file():
+                self._write_array(self.colour_path(colour), values)
         row = (
             job.job_id,
             job.dataset_target,
@@ -240,6 +302,8 @@ class Store:
             result.get("finished"),
             __version__,
             run_id,
+            result.get("data_fingerprint"),
+            colour,
         )
         db = self.db
         db.execute("BEGIN IMMEDIATE")
@@ -269,50 +333,6 @@ class Store:
             "ORDER BY j.dataset_label, j.method_label, j.seed, s.metric, s.k"
         )
 
-    def export_scores(self) -> list[Path]:
-        """Write ``scores.csv`` (and ``scores.parquet`` when pyarrow is installed); return them.
-
-        Values are written with ``repr``, which round-trips every float64 exactly.
-        """
-        rows = list(self.score_rows())
-        written = [self._export_csv(rows)]
-        try:
-            import pyarrow  # noqa: F401
-        except ImportError:
-            return written
-        written.append(self._export_parquet(rows))
-        return written
-
-    def _export_csv(self, rows: list[tuple]) -> Path:
-        final = self.folder / "scores.csv"
-        temporary = self.folder / f".scores.csv.{os.getpid()}.tmp"
-        with open(temporary, "w", newline="", encoding="utf-8") as fh:
-            writer = csv.writer(fh)
-            writer.writerow(SCORE_COLUMNS)
-            for job_id, dataset, method, seed, metric, k, value in rows:
-                writer.writerow([job_id, dataset, method, seed, metric, k, repr(float(value))])
-        os.replace(temporary, final)
-        return final
-
-    def _export_parquet(self, rows: list[tuple]) -> Path:
-        import pyarrow as pa
-        import pyarrow.parquet as pq
-
-        columns = list(zip(*rows, strict=True)) if rows else [[] for _ in SCORE_COLUMNS]
-        types = [pa.string(), pa.string(), pa.string(), pa.int64(), pa.string(), pa.int64()]
-        types.append(pa.float64())
-        table = pa.table(
-            {
-                name: pa.array(list(col), type=kind)
-                for name, col, kind in zip(SCORE_COLUMNS, columns, types, strict=True)
-            }
-        )
-        final = self.folder / "scores.parquet"
-        temporary = self.folder / f".scores.parquet.{os.getpid()}.tmp"
-        pq.write_table(table, temporary)
-        os.replace(temporary, final)
-        return final
-
     def latest_run(self) -> dict | None:
         """The most recent row of ``runs`` as a dict, or None."""
         cur = self.db.execute("SELECT * FROM runs ORDER BY run_id DESC LIMIT 1")
@@ -335,15 +355,15 @@ class Store:
         names = [c[0] for c in cur.description]
         return [dict(zip(names, row, strict=True)) for row in cur]
 
-    def headline_means(self, metric: str, k: int) -> dict[tuple[str, str], float]:
-        """Mean of ``metric`` at ``k`` over seeds, per (dataset label, method label)."""
-        cur = self.db.execute(
-            "SELECT j.dataset_label, j.method_label, AVG(s.value) FROM scores s "
-            "JOIN jobs j USING (job_id) WHERE s.metric = ? AND s.k = ? AND j.status = 'ok' "
-            "GROUP BY j.dataset_label, j.method_label",
-            (metric, k),
-        )
-        return {(d, m): v for d, m, v in cur}
+    def table(self, name: str) -> tuple[list[str], list[tuple]]:
+        """Column names and rows of one of the store's tables (empty when it is absent)."""
+        exists = self.db.execute(
+            "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?", (name,)
+        ).fetchone()
+        if not exists:
+            return [], []
+        cur = self.db.execute(f"SELECT * FROM {name}")
+        return [c[0] for c in cur.description], cur.fetchall()
 
     def integrity(self) -> str:
         return self.db.execute("PRAGMA integrity_check").fetchone()[0]

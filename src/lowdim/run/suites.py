@@ -36,6 +36,8 @@ SUITE_KEYS = (
     "memory_limit",
     "metrics",
     "headline",
+    "select",
+    "alpha",
     "threads",
     "description",
 )
@@ -47,7 +49,9 @@ DEFAULTS: dict[str, Any] = {
     "timeout": 600.0,
     "memory_limit": None,
     "metrics": None,
-    "headline": "trustworthiness",
+    "headline": None,
+    "select": "overall",
+    "alpha": 0.05,
     "threads": 1,
     "description": "",
 }
@@ -122,13 +126,15 @@ class Suite:
     timeout: float | None
     memory_limit: int | None
     metrics: tuple[str, ...] | None
-    headline: str
+    # the headline criteria as given: names, or "name@K" keys; empty for the defaults
+    headline: tuple[str, ...]
+    # what picks the winner: "overall" (every headline criterion) or one criterion
+    select: str
+    alpha: float
     threads: int
     description: str
     datasets: tuple[Entry, ...]
     methods: tuple[Entry, ...]
-    # the headline as given: criterion names, or "name@K" keys (the first is `headline`)
-    headline_keys: tuple[str, ...] = ()
 
     def jobs(self) -> list[Job]:
         """Every (dataset, method, seed) job, dataset-major, with stable ids."""
@@ -290,31 +296,59 @@ def _check_settings(table: Any, source: str) -> dict:
             _check_metric(m, known, where, "metrics")
         metrics = tuple(dict.fromkeys(metrics))
     out["metrics"] = metrics
-    entries = out["headline"]
-    entries = [entries] if isinstance(entries, str) else entries
+    out["headline"] = tuple(
+        _criterion_entry(e, known, metrics, out["neighbors"], where, "headline")
+        for e in _entry_list(out["headline"], where, "headline")
+    )
+    select = out["select"]
+    if select != "overall":
+        if not isinstance(select, str):
+            raise InputError(
+                f'{where}: `select` must be "overall" or one criterion, got {select!r}'
+            )
+        _criterion_entry(select, known, metrics, out["neighbors"], where, "select")
+    alpha = out["alpha"]
+    if isinstance(alpha, bool) or not isinstance(alpha, int | float) or not 0 < alpha < 0.5:
+        raise InputError(
+            f"{where}: `alpha` must be a number in (0, 0.5), e.g. 0.05, got {alpha!r}"
+        )
+    out["alpha"] = float(alpha)
+    return out
+
+
+def _entry_list(value: Any, where: str, key: str) -> list:
+    if value is None:
+        return []
+    entries = [value] if isinstance(value, str) else value
     if not isinstance(entries, list | tuple) or not entries:
         raise InputError(
-            f"{where}: `headline` must be a criterion or a list of criteria, e.g. "
+            f"{where}: `{key}` must be a criterion or a list of criteria, e.g. "
             '"trustworthiness" or ["knn_accuracy@1", "trustworthiness@12"]'
         )
-    keys = []
-    for entry in entries:
-        name, k = _headline_entry(entry, where)
-        _check_metric(name, known, where, "headline")
-        if metrics is not None and name not in metrics and name not in RUNNER_METRICS:
-            raise InputError(
-                f"{where}: the `headline` criterion {name!r} is not among `metrics`; add it to "
-                "`metrics` or choose one of them"
-            )
-        if k is not None and k not in out["neighbors"]:
-            raise InputError(
-                f"{where}: the `headline` criterion {entry!r} asks for K = {k}, which is not "
-                f"among `neighbors` {list(out['neighbors'])}; add it there or choose one of them"
-            )
-        keys.append(entry)
-    out["headline"] = _headline_entry(keys[0], where)[0]
-    out["headline_keys"] = tuple(keys)
-    return out
+    return list(entries)
+
+
+def _criterion_entry(
+    entry: Any,
+    known: list[str],
+    metrics: tuple[str, ...] | None,
+    neighbors: tuple[int, ...],
+    where: str,
+    key: str,
+) -> str:
+    name, k = _headline_entry(entry, where)
+    _check_metric(name, known, where, key)
+    if metrics is not None and name not in metrics and name not in RUNNER_METRICS:
+        raise InputError(
+            f"{where}: the `{key}` criterion {name!r} is not among `metrics`; add it to "
+            "`metrics` or choose one of them"
+        )
+    if k is not None and k not in neighbors:
+        raise InputError(
+            f"{where}: the `{key}` criterion {entry!r} asks for K = {k}, which is not "
+            f"among `neighbors` {list(neighbors)}; add it there or choose one of them"
+        )
+    return str(entry)
 
 
 def _headline_entry(entry: Any, where: str) -> tuple[Any, int | None]:

@@ -7,6 +7,7 @@ driver writes to the store. Nothing here touches the store: only the driver writ
 
 from __future__ import annotations
 
+import hashlib
 import os
 import resource
 import socket
@@ -21,7 +22,10 @@ from threadpoolctl import threadpool_limits
 from lowdim.run.limits import run_limited
 from lowdim.run.suites import RUNNER_METRICS, Job
 
-__all__ = ["build_estimator", "execute_job", "run_job"]
+__all__ = ["build_estimator", "execute_job", "run_job", "data_fingerprint", "point_colours"]
+
+# Rows used to find the first principal direction that colours data with no truth or labels.
+_COLOUR_ROWS = 5000
 
 
 def _now() -> str:
@@ -47,6 +51,33 @@ def build_estimator(job: Job) -> Any:
     if "random_state" in known and "random_state" not in params:
         extra["random_state"] = job.seed
     return estimator.set_params(**extra) if extra else estimator
+
+
+def data_fingerprint(X: np.ndarray) -> str:
+    """A hash of the data matrix: two jobs with equal fingerprints embedded the same points."""
+    digest = hashlib.sha256(np.ascontiguousarray(X, dtype=np.float64).tobytes())
+    digest.update(repr(X.shape).encode())
+    return digest.hexdigest()[:20]
+
+
+def point_colours(X: np.ndarray, labels: Any, truth: Any) -> tuple[str, np.ndarray]:
+    """What colours the points in the report's gallery, with its kind.
+
+    The first intrinsic coordinate where the data have one (``"truth"``), the class labels
+    otherwise (``"labels"``), else the scores on the first principal direction (``"pc1"``,
+    the direction found on at most 5,000 rows drawn with a fixed seed).
+    """
+    if truth is not None:
+        return "truth", np.asarray(truth, dtype=np.float64).reshape(len(X), -1)[:, 0].copy()
+    if labels is not None:
+        return "labels", np.asarray(labels).copy()
+    rows = X
+    if len(X) > _COLOUR_ROWS:
+        rows = X[np.random.default_rng(0).choice(len(X), _COLOUR_ROWS, replace=False)]
+    centre = rows.mean(axis=0)
+    _, _, vt = np.linalg.svd(rows - centre, full_matrices=False)
+    direction = vt[0] if np.abs(vt[0]).max() == vt[0].max() else -vt[0]
+    return "pc1", (X - centre) @ direction
 
 
 def _reset_peak() -> bool:
@@ -93,6 +124,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         warnings.simplefilter("always")
         data = datasets.load(dict(job.dataset_spec))
         X = np.asarray(data.X, dtype=np.float64)
+        fingerprint = data_fingerprint(X)
+        colour = point_colours(X, data.labels, data.truth)
         estimator = build_estimator(job)
         _reset_peak()
         before = _rss()
@@ -145,6 +178,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         "peak_mb": peak_mb,
         "n_samples": int(X.shape[0]),
         "n_features": int(X.shape[1]),
+        "data_fingerprint": fingerprint,
+        "colour": colour,
         "started": started,
         "finished": _now(),
     }

@@ -1,0 +1,349 @@
+"""The one analysis engine: from a results store to the :class:`Analysis` every output renders.
+
+:func:`analyse` reads the store and its settings record and computes, once: per-block means
+and spreads, ranks within blocks, the order of the configurations (mean rank on the
+selection, then the one tie-break rule), the winner, the tuned view, gaps to the best, and the
+tests of each criterion: Friedman (exact, Monte Carlo or asymptotic, as
+:mod:`lowdim.analysis.stats` decides), the Nemenyi critical difference, and Wilcoxon
+signed-rank tests of the winner against every other configuration with Holm's correction,
+each with its effect size. report.html, leaderboard.csv|md|tex, stats.json, scores.csv, the
+terminal summary of ``run`` and the recommendation of ``compare`` render this object; none of
+them ranks or tests anything itself.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+import pandas as pd
+
+from lowdim.analysis import stats
+from lowdim.analysis.breakdown import BREAKDOWN_FRACTION, breakdown_table
+from lowdim.analysis.curves import bandwidth_curves, rnx_curves, scaling_table
+from lowdim.analysis.ranking import (
+    gaps_to_best,
+    natural_key,
+    ordered,
+    overall_summary,
+    positions,
+    rank_table,
+    summarise,
+    tuned_summary,
+)
+from lowdim.analysis.results import Results, criterion_table, load_results
+from lowdim.analysis.stability import seed_stability
+from lowdim.errors import InputError, suggestion
+from lowdim.run.settings import OVERALL, Settings
+
+__all__ = ["Pair", "CriterionTests", "Analysis", "analyse", "analyse_folder"]
+
+
+@dataclass(frozen=True)
+class Pair:
+    """The winner against one other configuration on one criterion (Wilcoxon signed-rank).
+
+    ``median_difference`` is oriented so that a positive value favours the winner, in the
+    criterion's units (in ranks for :data:`~lowdim.run.settings.OVERALL`).
+    """
+
+    winner: str
+    other: str
+    n_blocks: int
+    statistic: float
+    p_value: float
+    p_holm: float
+    method: str
+    median_difference: float
+
+
+@dataclass(frozen=True)
+class CriterionTests:
+    """Everything tested on one criterion over the blocks."""
+
+    key: str
+    higher_is_better: bool
+    n_blocks: int
+    n_configurations: int
+    mean_ranks: pd.Series
+    friedman: stats.FriedmanResult | None
+    q_alpha: float | None
+    critical_difference: float | None
+    pairs: tuple[Pair, ...] = ()
+    alpha: float = 0.05
+
+    @property
+    def rejects(self) -> bool:
+        """Whether Friedman's test rejects at ``alpha`` (False when it could not be run)."""
+        return self.friedman is not None and self.friedman.p_value < self.alpha
+
+    def pair(self, other: str) -> Pair | None:
+        for p in self.pairs:
+            if p.other == other:
+                return p
+        return None
+
+
+@dataclass
+class Analysis:
+    """The results object: every number an output shows, computed once.
+
+    Attributes
+    ----------
+    settings : Settings
+        The run's settings record.
+    results : Results
+        The store read into data frames.
+    table : DataFrame
+        Long-form scores of finished jobs with labels and criterion keys.
+    summary : DataFrame
+        Block mean and spread per configuration and criterion, the overall criterion included.
+    blocks : list of str
+        The blocks of the tests (dataset labels, or resample labels of one file).
+    order : list of str
+        Every configuration, best first (selection, then the tie-break rule).
+    position : dict
+        Configuration -> its place (``"1"``, ``"=2"``).
+    selection_ranks : Series
+        Mean rank on the selection per configuration, in :attr:`order`.
+    tests : dict
+        Criterion key (and ``"overall"``) -> :class:`CriterionTests`.
+    """
+
+    settings: Settings
+    results: Results
+    table: pd.DataFrame
+    summary: pd.DataFrame
+    blocks: list[str]
+    order: list[str]
+    position: dict[str, str]
+    selection_ranks: pd.Series
+    tests: dict[str, CriterionTests]
+    tuned: pd.DataFrame
+    gaps: pd.DataFrame
+    failures: pd.DataFrame
+    breakdown: pd.DataFrame
+    stability: pd.DataFrame
+    bandwidth: pd.DataFrame
+    scaling: pd.DataFrame
+    scaling_fits: pd.DataFrame
+    rnx: pd.DataFrame
+    fraction: float = BREAKDOWN_FRACTION
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def selection(self) -> str:
+        return self.settings.selection
+
+    @property
+    def winner(self) -> str | None:
+        return self.order[0] if self.order else None
+
+    @property
+    def runner_up(self) -> str | None:
+        return self.order[1] if len(self.order) > 1 else None
+
+    @property
+    def directions(self) -> dict[str, bool]:
+        """Criterion key -> higher is better, the overall criterion included."""
+        return {**self.settings.directions, OVERALL: False}
+
+    @property
+    def headline(self) -> list[str]:
+        """The headline criteria that have scores in this run."""
+        present = set(self.summary["criterion"])
+        return [k for k in self.settings.headline if k in present]
+
+    @property
+    def criteria(self) -> list[str]:
+        """Every ranked criterion with scores, in the record's order, overall first."""
+        present = set(self.summary["criterion"])
+        keys = [OVERALL] if OVERALL in present else []
+        return keys + [c.key for c in self.settings.criteria if c.key in present]
+
+    def family(self, method: str) -> str:
+        return self.settings.families.get(method) or _family_of(self.results, method)
+
+    def leaders(self) -> list[str]:
+        """The configurations a reader sees first: the winner, the runner-up, the best PCA."""
+        out = self.order[:2]
+        pca = [m for m in self.order if self.family(m) == "pca"]
+        return list(dict.fromkeys(out + pca[:1]))
+
+    def tied_with_winner(self) -> list[str]:
+        """Configurations whose mean rank on the selection equals the winner's."""
+        if not self.order:
+            return []
+        first = round(float(self.selection_ranks.iloc[0]), 9)
+        return [m for m, r in self.selection_ranks.items() if round(float(r), 9) == first]
+
+
+def _family_of(results: Results, method: str) -> str:
+    hit = results.jobs.loc[results.jobs["config"] == method, "family"]
+    return str(hit.iloc[0]) if len(hit) else method
+
+
+def _block_values(summary: pd.DataFrame, key: str) -> pd.DataFrame:
+    part = summary[summary["criterion"] == key]
+    return part.pivot_table(index="dataset", columns="method", values="mean", aggfunc="first")
+
+
+def _pairs(
+    summary: pd.DataFrame, key: str, higher: bool, winner: str, others: list[str]
+) -> tuple[Pair, ...]:
+    """Wilcoxon signed-rank of the winner against each other configuration on ``key``, Holm
+    over those comparisons. Blocks where either side has no value are left out of a pair."""
+    wide = _block_values(summary, key)
+    if winner not in wide:
+        return ()
+    raw = []
+    for other in others:
+        if other not in wide:
+            continue
+        both = wide[[winner, other]].dropna()
+        if len(both) < 1:
+            continue
+        a, b = both[winner].to_numpy(float), both[other].to_numpy(float)
+        sign = 1.0 if higher else -1.0
+        raw.append((other, len(both), stats.wilcoxon_signed_rank(sign * a, sign * b)))
+    if not raw:
+        return ()
+    adjusted = stats.holm(np.array([r.p_value for _, _, r in raw]))
+    return tuple(
+        Pair(
+            winner=winner,
+            other=other,
+            n_blocks=n,
+            statistic=r.statistic,
+            p_value=r.p_value,
+            p_holm=float(p),
+            method=r.method,
+            median_difference=r.median_difference,
+        )
+        for (other, n, r), p in zip(raw, adjusted, strict=True)
+    )
+
+
+def _tests(
+    summary: pd.DataFrame,
+    key: str,
+    higher: bool,
+    methods: list[str],
+    winner: str | None,
+    alpha: float,
+    with_pairs: bool,
+) -> CriterionTests:
+    ranks = rank_table(summary, key, higher, methods)
+    ranks = ranks.loc[:, ranks.notna().any(axis=0)]
+    n, k = ranks.shape
+    friedman, q, cd = None, None, None
+    if n >= 1 and k >= 2:
+        friedman = stats.friedman(ranks.to_numpy(float))
+        q = stats.nemenyi_q(k, alpha)
+        cd = stats.critical_difference(k, n, alpha)
+    pairs: tuple[Pair, ...] = ()
+    if with_pairs and winner is not None and k >= 2:
+        pairs = _pairs(summary, key, higher, winner, [m for m in methods if m != winner])
+    return CriterionTests(
+        key=key,
+        higher_is_better=higher,
+        n_blocks=n,
+        n_configurations=k,
+        mean_ranks=ranks.mean(axis=0).sort_values(),
+        friedman=friedman,
+        q_alpha=q,
+        critical_difference=cd,
+        pairs=pairs,
+        alpha=alpha,
+    )
+
+
+def _with_selection(settings: Settings, selection: str | None, where: str) -> Settings:
+    """The record with another selection (``lowdim report --select``), checked against it."""
+    if selection is None or selection == settings.selection:
+        return settings
+    keys = [OVERALL] + [c.key for c in settings.criteria]
+    if selection not in keys:
+        raise InputError(
+            f"the selection criterion {selection!r} is not among the criteria ranked in "
+            f"{where}{suggestion(selection, keys)}; give one of {', '.join(keys)}"
+        )
+    return replace(settings, selection=selection)
+
+
+def analyse(results: Results, *, selection: str | None = None) -> Analysis:
+    """Compute the :class:`Analysis` of a loaded store.
+
+    ``selection`` overrides the record's selection (a criterion key, or ``"overall"``).
+    """
+    settings = _with_selection(results.settings, selection, repr(str(results.out_dir)))
+    results = replace(results, settings=settings)
+    directions = settings.directions
+    every_score = criterion_table(results)
+    table = every_score[every_score["criterion"].isin(directions)]
+    summary = summarise(table)
+    methods = sorted(results.jobs["config"].unique())
+    families = {m: _family_of(results, m) for m in methods}
+    overall = overall_summary(summary, settings.headline, directions, methods, families)
+    summary = pd.concat([summary, overall], ignore_index=True) if len(overall) else summary
+    all_directions = {**directions, OVERALL: False}
+    selection = settings.selection
+    higher = all_directions.get(selection, False)
+    selection_ranks = rank_table(summary, selection, higher, methods).mean(axis=0)
+    # a configuration with no finished job anywhere still takes a place, after the others
+    selection_ranks = selection_ranks.reindex(methods).fillna(math.inf)
+    order = ordered(selection_ranks, families, settings.simpler_first)
+    selection_ranks = selection_ranks[order]
+    place = dict(zip(order, positions(selection_ranks.to_list()), strict=True))
+    winner = order[0] if order else None
+    present = set(summary["criterion"])
+    tested = [OVERALL] + [c.key for c in settings.criteria]
+    with_pairs = {selection, OVERALL, *settings.headline}
+    tests = {
+        key: _tests(
+            summary, key, all_directions[key], methods, winner, settings.alpha, key in with_pairs
+        )
+        for key in tested
+        if key in present
+    }
+    jobs = results.jobs
+    failures = jobs[jobs["status"] != "ok"][
+        ["job_id", "data", "config", "family", "seed", "status", "error"]
+    ].rename(columns={"data": "dataset", "config": "method"})
+    headline = {k: v for k, v in all_directions.items() if k in settings.headline}
+    points, fits = scaling_table(results)
+    blocks = sorted(set(summary["dataset"]), key=natural_key)
+    return Analysis(
+        settings=settings,
+        results=results,
+        table=table,
+        summary=summary,
+        blocks=blocks,
+        order=order,
+        position=place,
+        selection_ranks=selection_ranks,
+        tests=tests,
+        tuned=tuned_summary(summary, selection, higher, settings.simpler_first),
+        gaps=gaps_to_best(summary, all_directions),
+        failures=failures.reset_index(drop=True),
+        breakdown=breakdown_table(results, table, headline, BREAKDOWN_FRACTION),
+        stability=seed_stability(results),
+        bandwidth=bandwidth_curves(results, every_score, _curve_criterion(settings, present)),
+        scaling=points,
+        scaling_fits=fits,
+        rnx=rnx_curves(every_score),
+    )
+
+
+def _curve_criterion(settings: Settings, present: set[str]) -> str:
+    """The criterion drawn on the bandwidth curves: the selection, or the first headline one
+    when the selection is the overall rank (a rank says nothing along one family's sweep)."""
+    if settings.selection != OVERALL:
+        return settings.selection
+    return next((k for k in settings.headline if k in present), "")
+
+
+def analyse_folder(out_dir, *, selection: str | None = None) -> Analysis:
+    """:func:`analyse` of the store in ``out_dir``."""
+    return analyse(load_results(out_dir), selection=selection)

@@ -1,0 +1,180 @@
+"""Tables as plain data: rows of already-formatted cells, read off the :class:`Analysis`.
+
+The Markdown, LaTeX, HTML and terminal outputs render these same rows, so each shows the same
+numbers in the same order. A cell is a dict ``{"text": str, "best": bool}``; ``best`` marks
+the best value of its column (bold in every format).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+from lowdim.analysis.engine import Analysis
+from lowdim.analysis.ranking import natural_key, over_blocks, rank_table
+from lowdim.report import format as fmt
+from lowdim.run.settings import OVERALL, parse_criterion
+
+__all__ = ["Table", "criterion_title", "overall_table", "dataset_tables", "tuned_tables"]
+
+
+@dataclass
+class Table:
+    """A table ready to render: a title, column headers, rows of cells, and a note."""
+
+    title: str
+    header: list[str]
+    rows: list[list[dict]] = field(default_factory=list)
+    note: str = ""
+
+
+def _cell(text: str, best: bool = False) -> dict:
+    return {"text": text, "best": bool(best)}
+
+
+def criterion_title(key: str) -> str:
+    """``trustworthiness (K = 10)``; the overall criterion says what it is."""
+    if key == OVERALL:
+        return "overall rank"
+    metric, k = parse_criterion(key)
+    return f"{metric} (K = {k})" if k else metric
+
+
+def _arrow(an: Analysis, key: str) -> str:
+    return "" if an.directions.get(key, True) else " ↓"
+
+
+def _selection_header(an: Analysis) -> str:
+    if an.selection == OVERALL:
+        return "overall (mean rank)"
+    return f"{criterion_title(an.selection)} (mean rank)"
+
+
+def overall_table(an: Analysis, *, values: bool = False) -> Table:
+    """Every configuration in the verdict's order: its place, its mean rank on the selection,
+    and per headline criterion its mean rank over the blocks (``values=False``) or its mean
+    and spread over the blocks (``values=True``, the comparison's table)."""
+    keys = an.headline
+    header = ["place", "configuration", _selection_header(an)]
+    header += [criterion_title(k) + _arrow(an, k) for k in keys]
+    table = Table(title="Leaderboard", header=header)
+    methods = list(an.order)
+    mean_ranks = {
+        k: rank_table(an.summary, k, an.directions[k], methods).mean(axis=0) for k in keys
+    }
+    blocks = over_blocks(an.summary).set_index(["method", "criterion"])
+    best_sel = an.selection_ranks.min() if len(an.selection_ranks) else math.nan
+    for m in an.order:
+        sel = an.selection_ranks.get(m, math.nan)
+        row = [
+            _cell(an.position[m]),
+            _cell(m),
+            _cell(fmt.rank(sel) if math.isfinite(sel) else "failed", sel == best_sel),
+        ]
+        for k in keys:
+            if values:
+                hit = blocks.loc[(m, k)] if (m, k) in blocks.index else None
+                if hit is None:
+                    row.append(_cell("–"))
+                    continue
+                col = blocks.xs(k, level="criterion")["mean"]
+                best = col.max() if an.directions[k] else col.min()
+                row.append(_cell(fmt.mean_sd(hit["mean"], hit["spread"]), hit["mean"] == best))
+            else:
+                r = mean_ranks[k].get(m, math.nan)
+                row.append(_cell(fmt.rank(r), r == mean_ranks[k].min()))
+        table.rows.append(row)
+    n = len(an.blocks)
+    what = "resamples of the file" if an.settings.blocks == "resamples" else "datasets"
+    if values:
+        table.note = (
+            f"Mean ± spread over {n} {what} (the spread is the standard deviation across "
+            "them; with one, across seeds). Best value of each column in bold; ↓ lower is "
+            "better."
+        )
+    else:
+        table.note = (
+            f"Mean rank over the {n} {what} (1 = best, ties averaged; a configuration that "
+            "failed somewhere takes the last rank there). Places tied on the selection are "
+            f"shown as =1; {an.settings.tie_break}."
+        )
+    return table
+
+
+def _dataset_order(an: Analysis, dataset: str) -> list[str]:
+    """Configurations by their rank on the selection within one block, ties as the verdict."""
+    part = an.summary[
+        (an.summary["dataset"] == dataset) & (an.summary["criterion"] == an.selection)
+    ]
+    higher = an.directions.get(an.selection, False)
+    value = part.set_index("method")["mean"]
+    index = {m: i for i, m in enumerate(an.order)}
+
+    def key(m: str) -> tuple:
+        v = value.get(m, math.nan)
+        missing = not math.isfinite(v)
+        return (missing, 0.0 if missing else (-v if higher else v), index.get(m, 10**9))
+
+    return sorted(an.order, key=key)
+
+
+def dataset_tables(an: Analysis) -> list[Table]:
+    """One table per block: configurations by rank there, headline means ± seed spread with
+    the rank after ``#``."""
+    keys = an.headline
+    out = []
+    for dataset in sorted(an.summary["dataset"].unique(), key=natural_key):
+        part = an.summary[an.summary["dataset"] == dataset]
+        header = ["configuration"] + [criterion_title(k) + _arrow(an, k) for k in keys]
+        table = Table(title=str(dataset), header=header)
+        ranks = {k: rank_table(part, k, an.directions[k], an.order) for k in keys}
+        for m in _dataset_order(an, dataset):
+            row = [_cell(m)]
+            for k in keys:
+                hit = part[(part["method"] == m) & (part["criterion"] == k)]
+                if hit.empty or pd.isna(hit["mean"].iloc[0]):
+                    row.append(_cell("no score"))
+                    continue
+                r = ranks[k].iloc[0][m] if not ranks[k].empty else math.nan
+                best = not ranks[k].empty and r == ranks[k].iloc[0].min()
+                text = f"{fmt.mean_sd(hit['mean'].iloc[0], hit['sd'].iloc[0])} (#{r:g})"
+                row.append(_cell(text, best))
+            table.rows.append(row)
+        table.note = (
+            f"Mean ± standard deviation over seeds; the rank on {dataset} after #. Sorted by "
+            f"the rank on {criterion_title(an.selection)} there."
+        )
+        out.append(table)
+    return out
+
+
+def tuned_tables(an: Analysis) -> list[Table]:
+    """Per block, each method family at its best configuration by the selection."""
+    tuned = an.tuned
+    if tuned.empty or an.summary["method"].nunique() <= an.summary["family"].nunique():
+        return []
+    keys = [k for k in an.headline if k in set(tuned["criterion"])]
+    out = []
+    for dataset in sorted(tuned["dataset"].unique(), key=natural_key):
+        part = tuned[tuned["dataset"] == dataset]
+        picks = part.drop_duplicates("method").set_index("method")["configuration"]
+        header = ["method", "configuration"] + [criterion_title(k) for k in keys]
+        table = Table(title=str(dataset), header=header)
+        best = {}
+        for k in keys:
+            col = part[part["criterion"] == k].set_index("method")["mean"].dropna()
+            best[k] = (col.max() if an.directions[k] else col.min()) if len(col) else math.nan
+        for family in picks.index:
+            row = [_cell(family), _cell(picks[family])]
+            for k in keys:
+                hit = part[(part["method"] == family) & (part["criterion"] == k)]
+                if hit.empty:
+                    row.append(_cell("–"))
+                    continue
+                mean = hit["mean"].iloc[0]
+                row.append(_cell(fmt.mean_sd(mean, hit["sd"].iloc[0]), mean == best[k]))
+            table.rows.append(row)
+        out.append(table)
+    return out
