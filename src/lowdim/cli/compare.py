@@ -8,10 +8,14 @@ from __future__ import annotations
 
 import argparse
 import sys
-import textwrap
 
+from lowdim._files import write_text
+from lowdim.analysis.engine import analyse_folder
 from lowdim.report import build_report
-from lowdim.run.compare import MAX_ROWS, plan_comparison, run_comparison, write_text
+from lowdim.report.recommendation import recommendation
+from lowdim.report.text import fixed_width, wrap_sentence
+from lowdim.report.views import overall_table
+from lowdim.run.compare import MAX_ROWS, plan_comparison, run_comparison
 
 HELP = "compare the built-in methods (and your plugins) on your own data file and recommend one"
 
@@ -48,10 +52,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
 
 
-def _wrap(sentence: str) -> str:
-    return textwrap.fill(sentence, width=99, initial_indent="- ", subsequent_indent="  ")
-
-
 def run(args: argparse.Namespace) -> int:
     plan = plan_comparison(
         args.file,
@@ -66,25 +66,29 @@ def run(args: argparse.Namespace) -> int:
         print(f"lowdim: warning: {note}", file=sys.stderr)
     seeds = len(plan.suite["suite"]["seeds"])
     data = len(plan.suite["datasets"])
-    shape = f"{plan.facts.n_samples} rows"
+    shape = f"{plan.n_samples} rows"
     runs = f"{plan.n_settings} settings x {seeds} seed{'s' if seeds > 1 else ''}"
-    if plan.facts.subsample:
-        shape += f", compared on {data} random subsamples of {plan.facts.subsample}"
+    if plan.subsample:
+        shape += f", compared on {data} random subsamples of {plan.subsample}"
         runs += f" x {data} subsamples"
     total = plan.n_settings * seeds * data
     print(
         f"lowdim compare: {plan.file.name}, {shape}; {runs} = {total} runs into {plan.out_dir}",
         file=sys.stderr,
     )
-    outcome = run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
-    outcome.report = build_report(plan.out_dir)
-    names = ", ".join(c.label for c in plan.criteria if c.label in outcome.table)
-    heading = f"Ranked by mean rank over {names} (mean ± sd over the repeats):"
-    parts = [heading, outcome.table, "", "Recommendation:"]
-    parts += [_wrap(s) for s in outcome.recommendation]
-    text = "\n".join(parts if outcome.table else parts[3:]) + "\n"
+    run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
+    analysis = analyse_folder(plan.out_dir)
+    report = build_report(plan.out_dir)
+    board = overall_table(analysis, values=True)
+    parts = [
+        f"Ranked by {board.header[2]} (mean ± spread of each headline criterion):",
+        fixed_width(board),
+        "",
+        "Recommendation:",
+    ]
+    parts += [wrap_sentence(s) for s in recommendation(analysis)]
+    text = "\n".join(parts) + "\n"
     write_text(plan.out_dir / "recommendation.txt", text)
     print(text, end="")
-    if outcome.report is not None:
-        print(f"\nreport: {outcome.report}")
+    print(f"\nreport: {report}")
     return 0

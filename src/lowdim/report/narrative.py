@@ -78,8 +78,8 @@ def verdict(an: Analysis) -> str:
     )
     if tied:
         text += (
-            f" It ties with {_names(tied)}; it is named first by the tie-break rule: "
-            f"{an.settings.tie_break}."
+            f" It ties with {_names(tied)} and is named first by the tie-break rule "
+            "(the simpler method first, then the label)."
         )
     return text
 

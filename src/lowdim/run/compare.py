@@ -20,20 +20,11 @@ from typing import Any
 
 import numpy as np
 
-from lowdim.analysis.recommend import (
-    Criterion,
-    DataFacts,
-    format_table,
-    headline_criteria,
-    recommend,
-    summarise,
-)
 from lowdim.errors import InputError
 
 __all__ = [
     "MAX_ROWS",
     "ComparePlan",
-    "CompareOutcome",
     "plan_comparison",
     "run_comparison",
     "default_out_dir",
@@ -54,13 +45,17 @@ QUICK_SEEDS = (0, 1)
 
 @dataclass
 class ComparePlan:
-    """A comparison ready to run: the suite as a dict, where it goes, what was found."""
+    """A comparison ready to run: the suite as a dict, where it goes, what was found.
+
+    ``context`` is what the comparison found in the data (rows, duplicates, neighbour-graph
+    components, subsampling, criteria that cannot be computed); the runner keeps it in the
+    run's settings record, where the recommendation's cautions read it.
+    """
 
     file: Path
     suite: dict
     out_dir: Path
-    criteria: list[Criterion]
-    facts: DataFacts
+    context: dict
     plugins: tuple[str, ...] = ()
     warnings: list[str] = field(default_factory=list)
 
@@ -68,15 +63,13 @@ class ComparePlan:
     def n_settings(self) -> int:
         return sum(_points(t) for t in self.suite["methods"])
 
+    @property
+    def n_samples(self) -> int:
+        return int(self.context["n_samples"])
 
-@dataclass
-class CompareOutcome:
-    """The printed parts of a comparison and where its report is."""
-
-    table: str
-    recommendation: list[str]
-    report: Path | None
-    summary: Any
+    @property
+    def subsample(self) -> int | None:
+        return self.context.get("subsample")
 
 
 def default_out_dir(path: str | Path) -> Path:
@@ -303,67 +296,43 @@ def plan_comparison(
             # Subsamples vary the data, so one method seed each is enough there.
             "seeds": [0] if n > max_rows else list(QUICK_SEEDS if quick else SEEDS),
             "neighbors": metric_ks,
-            "headline": "trustworthiness",
             "description": f"lowdim compare on {path.name}",
         },
         "datasets": _dataset_tables(spec, path.stem, n, max_rows, repeats),
         "methods": _method_tables(median_distance(sample), ks, plugin_names, quick=quick),
     }
-    facts = DataFacts(
-        n_samples=n,
-        n_duplicates=n - unique,
-        components=graph_components(sample, neighbour_counts(n_used)),
-        subsample=max_rows if n > max_rows else None,
-        missing=_missing_criteria(dataset.labels is not None),
-    )
-    k_head = metric_ks[len(metric_ks) // 2] if 10 not in metric_ks else 10
+    context = {
+        "file": path.name,
+        "n_samples": n,
+        "n_duplicates": n - unique,
+        "components": {
+            str(k): c for k, c in graph_components(sample, neighbour_counts(n_used)).items()
+        },
+        "subsample": max_rows if n > max_rows else None,
+        "missing": _missing_criteria(dataset.labels is not None),
+    }
     return ComparePlan(
         file=path,
         suite=suite,
         out_dir=Path(out_dir) if out_dir else default_out_dir(path),
-        criteria=headline_criteria(k_head, labels=dataset.labels is not None),
-        facts=facts,
+        context=context,
         plugins=tuple(plugins),
         warnings=notes,
     )
 
 
-def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -> CompareOutcome:
-    """Run the plan's suite into its folder and compute the table and the recommendation."""
-    from lowdim.analysis import results as scoring
+def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -> Any:
+    """Run the plan's suite into its folder, its context kept in the settings record; return
+    the runner's summary."""
     from lowdim.run.runner import run_suite
     from lowdim.run.suites import suite_from_dict
 
     suite = suite_from_dict(plan.suite, source=f"<lowdim compare {plan.file.name}>")
-    summary = run_suite(suite, plan.out_dir, n_jobs=n_jobs, quiet=quiet, plugins=plan.plugins)
-    wanted = {job.job_id for job in suite.jobs()}
-    results = scoring.load_results(plan.out_dir)
-    scores = scoring.criterion_table(results)
-    scores = scores[scores["job_id"].isin(wanted)]
-    jobs = results.jobs[results.jobs["job_id"].isin(wanted)]
-    bad = jobs[jobs["status"] != "ok"]
-    plan.facts.failures = [
-        (str(r.config), str(r.status), " ".join(str(r.error or "no message").split()))
-        for r in bad.itertuples()
-    ]
-    present = {(m, int(k)) for m, k in zip(scores["metric"], scores["k"], strict=True)}
-    criteria = [c for c in plan.criteria if (c.metric, c.k) in present]
-    table = format_table(summarise(scores, criteria), criteria) if criteria else ""
-    lines = recommend(scores, plan.criteria, plan.facts)
-    return CompareOutcome(table=table, recommendation=lines, report=None, summary=summary)
-
-
-def write_text(path: Path, text: str) -> Path:
-    """Write ``text`` to ``path`` through a temporary name in the same folder."""
-    import os
-    import tempfile
-
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        os.unlink(tmp)
-        raise
-    return path
+    return run_suite(
+        suite,
+        plan.out_dir,
+        n_jobs=n_jobs,
+        quiet=quiet,
+        plugins=plan.plugins,
+        context=plan.context,
+    )

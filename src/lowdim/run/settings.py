@@ -37,9 +37,8 @@ SIMPLER_FIRST = ("pca", "classical_mds", "kernel_pca", "laplacian_eigenmaps", "d
 """Built-in families from the fewest choices to make to the most; others follow by name."""
 
 TIE_BREAK = (
-    "configurations with equal mean ranks are ordered by the simpler method first (PCA, "
-    "classical MDS, kernel PCA, Laplacian eigenmaps, diffusion maps, then any other method "
-    "by name), then by configuration label"
+    "equal mean ranks go to the simpler method first (PCA, classical MDS, kernel PCA, "
+    "Laplacian eigenmaps, diffusion maps, then others by name), then by label"
 )
 
 
