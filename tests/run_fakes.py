@@ -32,11 +32,15 @@ def fake_score_embedding(X, Y, *, metrics=None, ks=(5,), labels=None, truth=None
 def install_fake_metrics(monkeypatch) -> None:
     """Put a fake ``lowdim.metrics`` in place and make job children inherit it (fork)."""
     import lowdim
+    import lowdim.metrics as real
     import lowdim.run.limits
 
     module = types.ModuleType("lowdim.metrics")
     module.metric_names = lambda: list(METRIC_NAMES)
     module.score_embedding = fake_score_embedding
+    # the criteria's facts (direction, K, scope) are the registry's, for the settings record
+    module.get_metric = real.get_metric
+    module.default_headline = real.default_headline
     monkeypatch.setitem(sys.modules, "lowdim.metrics", module)
     monkeypatch.setattr(lowdim, "metrics", module, raising=False)
     monkeypatch.setattr(lowdim.run.limits, "START_METHOD", "fork")

@@ -114,7 +114,8 @@ def test_failures_are_recorded_the_run_goes_on_and_a_rerun_recomputes_nothing(tm
     again = lowdim(*args, "--no-report", cwd=tmp_path)
     assert again.returncode == 0, again.stderr
     assert "16 jobs, 0 run, 16 already done" in again.stderr
-    assert again.stdout.startswith("mean trustworthiness (K = 10) over seeds")
+    # the verdict first, rendered from the store like every output
+    assert again.stdout.startswith("- ") and "ranks first of 4 configurations" in again.stdout
     assert {p.name: p.stat().st_mtime_ns for p in (out / "embeddings").iterdir()} == stamps
     assert score_lines(out) == before
     assert rows(out, "SELECT COUNT(*) FROM runs") == [(2,)]

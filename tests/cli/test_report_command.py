@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import shutil
 from pathlib import Path
 
@@ -48,24 +49,21 @@ def test_unknown_selection_criterion_names_the_closest(
 def test_named_selection_criterion_is_used(tmp_path: Path, write_store) -> None:
     folder = write_store(tmp_path / "tiny", small=True)
     assert main(["report", str(folder), "--select", "trustworthiness@5"]) == 0
-    assert "selection criterion trustworthiness@5" in (folder / "report.html").read_text()
+    stats = json.loads((folder / "stats.json").read_text())
+    assert stats["selection"] == "trustworthiness@5"
+    assert "on trustworthiness (K = 5) over 2 datasets" in (folder / "report.html").read_text()
 
 
-def test_a_suite_headline_list_sets_the_columns_and_the_selection(
-    tmp_path: Path, write_store
-) -> None:
+def test_a_suite_headline_list_sets_the_columns(tmp_path: Path, write_store) -> None:
     # A suite may name its headline criteria at their own K, as a published protocol does
     # (van der Maaten et al. 2009 report T(12), C(12) and 1-NN error): those become the
-    # leaderboard's columns, in that order, and the first picks the tuned view.
-    import sqlite3
-
-    folder = write_store(tmp_path / "listed", small=True)
-    with sqlite3.connect(folder / "store.sqlite") as con:
-        (text,) = con.execute("SELECT suite_text FROM runs").fetchone()
-        text = text.replace("[suite]\n", '[suite]\nheadline = ["continuity@5", "stress"]\n', 1)
-        con.execute("UPDATE runs SET suite_text = ?", (text,))
+    # leaderboard's columns, in that order; the report reads them from the stored record.
+    folder = write_store(tmp_path / "listed", small=True, headline=["continuity@5", "stress"])
     assert main(["report", str(folder)]) == 0
     board = (folder / "leaderboard.md").read_text()
-    header = next(line for line in board.splitlines() if line.startswith("| method"))
-    assert header == "| method | continuity@5 | stress | overall |"
-    assert "by continuity@5" in (folder / "report.html").read_text()
+    header = next(line for line in board.splitlines() if line.startswith("| place"))
+    assert header == (
+        "| place | configuration | overall (mean rank) | continuity (K = 5) | stress ↓ |"
+    )
+    stats = json.loads((folder / "stats.json").read_text())
+    assert stats["headline"] == ["continuity@5", "stress"]

@@ -78,12 +78,12 @@ def _is_png(path: Path | None) -> bool:
 def test_every_figure_draws_and_skips_empty_input(tmp_path: Path) -> None:
     rng = np.random.default_rng(0)
     methods = ["pca", "laplacian_eigenmaps", "<b>odd</b> label"]
-    summary = pd.DataFrame(
+    gaps = pd.DataFrame(
         [(d, m, "rnx_auc", rng.random()) for d in ("A", "B") for m in methods],
-        columns=["dataset", "method", "criterion", "mean"],
+        columns=["dataset", "method", "criterion", "gap"],
     )
-    assert _is_png(plots.criterion_heatmap(summary, "rnx_auc", True, tmp_path / "h.png"))
-    assert plots.criterion_heatmap(summary, "stress", False, tmp_path / "none.png") is None
+    assert _is_png(plots.gap_heatmap(gaps, "rnx_auc", methods, tmp_path / "h.png"))
+    assert plots.gap_heatmap(gaps, "stress", methods, tmp_path / "none.png") is None
 
     curves = pd.DataFrame(
         [(d, m, k, 1 / k) for d in ("A", "B") for m in methods for k in (1, 2, 5, 10, 30)],
@@ -93,6 +93,10 @@ def test_every_figure_draws_and_skips_empty_input(tmp_path: Path) -> None:
 
     ranks = {"pca": 2.6, "laplacian_eigenmaps": 1.2, "kernel_pca": 2.2}
     assert _is_png(plots.critical_difference_diagram(ranks, 1.1, tmp_path / "cd.png", "t"))
+    stamped = plots.critical_difference_diagram(
+        ranks, 1.1, tmp_path / "cd2.png", "t", stamp="not significant (p = 0.40)"
+    )
+    assert _is_png(stamped) and stamped.read_bytes() != (tmp_path / "cd.png").read_bytes()
     assert plots.critical_difference_diagram({"pca": 1.0}, 1.0, tmp_path / "x.png", "t") is None
 
     bw = pd.DataFrame(
@@ -146,12 +150,14 @@ def test_every_figure_draws_and_skips_empty_input(tmp_path: Path) -> None:
             "dataset": d,
             "method": m,
             "Y": rng.standard_normal((40, 2)),
-            "colour": np.repeat([0, 1], 20) if d == "A" else None,
-            "kind": "labels" if d == "A" else "order",
+            "colour": {"A": np.repeat([0, 1], 20), "B": None, "C": np.linspace(0, 1, 40)}[d],
+            "kind": {"A": "labels", "B": "order", "C": "truth"}[d],
         }
-        for d in ("A", "B")
+        for d in ("A", "B", "C")
         for m in methods
     ]
     assert _is_png(plots.embedding_gallery(panels, tmp_path / "g.png"))
     assert plots.embedding_gallery([], tmp_path / "none.png") is None
     assert not list(tmp_path.glob(".*"))  # no temporary files left
+    # every output is readable by others (0644), whatever the umask
+    assert {p.stat().st_mode & 0o777 for p in tmp_path.glob("*.png")} == {0o644}

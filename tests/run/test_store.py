@@ -1,8 +1,7 @@
-"""The results store: one transaction per job, atomic embeddings, exact exports."""
+"""The results store: one transaction per job, atomic embeddings, what the report needs."""
 
 from __future__ import annotations
 
-import csv
 import sqlite3
 
 import numpy as np
@@ -83,22 +82,45 @@ def test_a_failing_write_leaves_nothing_of_the_job(tmp_path):
         assert store.db.execute("SELECT COUNT(*) FROM scores").fetchone()[0] == 0
 
 
-def test_scores_csv_keeps_full_precision(tmp_path):
-    values = [("trustworthiness", 5, 0.1 + 0.2), ("stress", 0, 1 / 3), ("rnx", 10, -1e-300)]
+def test_colours_and_fingerprints_are_kept_for_the_report(tmp_path):
+    # What the report needs from the data is stored at job time (the report never reloads a
+    # dataset): equal colour vectors share one file, named by their hash.
+    colour = ("truth", np.linspace(0.0, 1.0, 5))
     with Store(tmp_path) as store:
-        store.record(make_record(make_job(), values=values))
-        paths = store.export_scores()
-    with open(tmp_path / "scores.csv", newline="") as fh:
-        rows = list(csv.DictReader(fh))
-    assert list(rows[0]) == ["job_id", "dataset", "method", "seed", "metric", "k", "value"]
-    got = {(r["metric"], int(r["k"])): float(r["value"]) for r in rows}
-    # repr round-trips every float64 exactly (Python language reference, float.__repr__)
-    assert got == {(m, k): v for m, k, v in values}
-    assert rows[0]["dataset"] == "swiss_roll(n=100)" and rows[0]["method"] == "pca"
-    pq = pytest.importorskip("pyarrow.parquet")
-    assert tmp_path / "scores.parquet" in paths
-    table = pq.read_table(tmp_path / "scores.parquet").to_pydict()
-    assert sorted(table["value"]) == sorted(v for _, _, v in values)
+        for seed in (0, 1):
+            record = make_record(make_job(job_id=str(seed) * 16, seed=seed))
+            record.update(data_fingerprint="f" * 20, colour=colour)
+            store.record(record)
+        rows = store.db.execute("SELECT data_fingerprint, colour FROM jobs").fetchall()
+        assert {r[0] for r in rows} == {"f" * 20}
+        (ref,) = {r[1] for r in rows}
+        assert ref.startswith("truth:")
+        np.testing.assert_array_equal(np.load(store.colour_path(ref)), colour[1])
+    assert len(list((tmp_path / "colours").glob("*.npy"))) == 1
+    assert (store.colour_path(ref).stat().st_mode & 0o777) == 0o644
+
+
+def test_an_older_store_gains_the_new_columns(tmp_path):
+    # A store written before the settings record and the colours existed opens and is
+    # extended in place; its rows are kept.
+    with sqlite3.connect(tmp_path / "store.sqlite") as con:
+        con.executescript(
+            "CREATE TABLE jobs (job_id TEXT PRIMARY KEY, dataset TEXT NOT NULL, "
+            "dataset_label TEXT NOT NULL, dataset_params TEXT NOT NULL, method TEXT NOT NULL, "
+            "method_label TEXT NOT NULL, method_params TEXT NOT NULL, seed INTEGER NOT NULL, "
+            "n_components INTEGER NOT NULL, status TEXT NOT NULL, error TEXT, notes TEXT, "
+            "fit_seconds REAL, peak_mb REAL, n_samples INTEGER, n_features INTEGER, "
+            "sample_size INTEGER, started TEXT, finished TEXT, lowdim_version TEXT NOT NULL, "
+            "run_id INTEGER);"
+            "CREATE TABLE runs (run_id INTEGER PRIMARY KEY, command TEXT, suite_name TEXT, "
+            "suite_path TEXT, suite_text TEXT, environment TEXT, started TEXT, finished TEXT);"
+        )
+    with Store(tmp_path) as store:
+        store.record(make_record(make_job()))
+        columns = {r[1] for r in store.db.execute("PRAGMA table_info(jobs)")}
+        assert {"data_fingerprint", "colour"} <= columns
+        assert "settings" in {r[1] for r in store.db.execute("PRAGMA table_info(runs)")}
+        assert store.statuses() == {"a" * 16: "ok"}
 
 
 def test_runs_and_plan_are_recorded(tmp_path):
@@ -109,11 +131,13 @@ def test_runs_and_plan_are_recorded(tmp_path):
             suite_path="s.toml",
             suite_text="[suite]",
             environment={"numpy": np.__version__},
+            settings='{"selection": "overall"}',
             planned=[("a" * 16, "d", "m", 0), ("b" * 16, "d", "m", 1)],
         )
         store.finish_run(run_id)
         run = store.latest_run()
         assert run["suite_text"] == "[suite]" and run["finished"] is not None
+        assert run["settings"] == '{"selection": "overall"}'
         assert [p[0] for p in store.planned(run_id)] == ["a" * 16, "b" * 16]
 
 

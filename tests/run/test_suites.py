@@ -327,6 +327,27 @@ def test_suite_text_and_settings_are_kept(tmp_path):
 
 def test_headline_may_list_criteria_at_their_own_k():
     suite = suite_from_dict(base(headline=["continuity@5", "trustworthiness@10"]), source="x")
-    assert suite.headline == "continuity"
-    assert suite.headline_keys == ("continuity@5", "trustworthiness@10")
-    assert suite_from_dict(base(), source="x").headline_keys == ("trustworthiness",)
+    assert suite.headline == ("continuity@5", "trustworthiness@10")
+    assert suite.select == "overall" and suite.alpha == 0.05
+    assert suite_from_dict(base(), source="x").headline == ()
+
+
+def test_select_and_alpha_are_checked():
+    assert suite_from_dict(base(select="continuity@5"), source="x").select == "continuity@5"
+    with pytest.raises(InputError, match="`select` criterion 'continuity@7' asks for K = 7"):
+        suite_from_dict(base(select="continuity@7"), source="x")
+    with pytest.raises(InputError, match="`alpha` must be a number in"):
+        suite_from_dict(base(alpha=0.7), source="x")
+
+
+def test_the_settings_record_resolves_the_headline_at_one_k():
+    # The one K rule: the lower median of `neighbors` (10 for [5, 10, 30], 5 for [5, 10]).
+    from lowdim.run.settings import Settings, headline_k, resolve_settings
+
+    assert headline_k([5, 10, 30]) == 10 and headline_k([5, 10]) == 5 and headline_k([7]) == 7
+    data = base(metrics=["trustworthiness", "continuity", "rnx_auc"], neighbors=[5, 10, 30])
+    settings = resolve_settings(suite_from_dict(data, source="x"))
+    assert settings.headline == ("rnx_auc", "trustworthiness@10", "continuity@10")
+    assert {c.key for c in settings.criteria} >= {"trustworthiness@5", "fit_seconds"}
+    assert settings.directions["fit_seconds"] is False
+    assert Settings.from_json(settings.to_json()) == settings

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import csv
 from pathlib import Path
 
 import pytest
@@ -64,9 +63,9 @@ def test_smoke_suite_runs(tmp_path):
     assert summary.counts == {"ok": len(suite.jobs())}
     with Store(tmp_path) as store:
         assert store.integrity() == "ok"
-    with open(tmp_path / "scores.csv", newline="") as fh:
-        scores = list(csv.DictReader(fh))
-    trust = [float(r["value"]) for r in scores if r["metric"] == "trustworthiness"]
+    with Store(tmp_path) as store:
+        scores = list(store.score_rows())
+    trust = [v for _, _, _, _, m, _, v in scores if m == "trustworthiness"]
     assert len(trust) == len(suite.jobs()) * len(suite.neighbors)
     # trustworthiness lies in [0, 1] for k < n/2 (Venna & Kaski 2001)
     assert all(0.0 <= t <= 1.0 for t in trust)

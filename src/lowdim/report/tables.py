@@ -53,7 +53,8 @@ def leaderboard_csv(an: Analysis) -> str:
     """Long form: the overall rows (each configuration's mean rank over the blocks and the mean
     of its block means per criterion) in the verdict's order, then the per-block rows.
 
-    Columns: ``scope, place, configuration, method, dataset, criterion, mean, sd, n, rank``;
+    Columns: ``scope, place, tied, configuration, method, dataset, criterion, mean, sd, n,
+    rank``; ``place`` is the verdict's place (a number; ``tied`` says whether it is shared);
     the first row names the winner on the selection.
     """
     rows = []
@@ -68,7 +69,8 @@ def leaderboard_csv(an: Analysis) -> str:
             rows.append(
                 {
                     "scope": "overall",
-                    "place": an.position[m],
+                    "place": an.position[m].lstrip("="),
+                    "tied": an.position[m].startswith("="),
                     "configuration": m,
                     "method": an.family(m),
                     "dataset": "",
@@ -82,7 +84,7 @@ def leaderboard_csv(an: Analysis) -> str:
     for table in _block_rows(an, criteria):
         rows.extend(table)
     frame = pd.DataFrame(rows)
-    for col in ("place", "configuration", "method", "dataset"):
+    for col in ("configuration", "method", "dataset"):
         frame[col] = frame[col].map(fmt.csv_text)
     return frame.to_csv(index=False, lineterminator="\n")
 
@@ -105,6 +107,7 @@ def _block_rows(an: Analysis, criteria: list[str]) -> list[list[dict]]:
                     {
                         "scope": "dataset",
                         "place": "",
+                        "tied": "",
                         "configuration": m,
                         "method": an.family(m),
                         "dataset": dataset,
