@@ -231,9 +231,11 @@ def _tests(
     higher: bool,
     methods: list[str],
     winner: str | None,
-    alpha: float,
+    settings: Settings,
+    families: dict[str, str],
     with_pairs: bool,
 ) -> CriterionTests:
+    alpha = settings.alpha
     ranks = rank_table(summary, key, higher, methods)
     ranks = ranks.loc[:, ranks.notna().any(axis=0)]
     n, k = ranks.shape
@@ -250,7 +252,7 @@ def _tests(
         higher_is_better=higher,
         n_blocks=n,
         n_configurations=k,
-        mean_ranks=ranks.mean(axis=0).sort_values(),
+        mean_ranks=_in_order(ranks.mean(axis=0), families, settings),
         friedman=friedman,
         q_alpha=q,
         critical_difference=cd,
@@ -270,6 +272,11 @@ def _with_selection(settings: Settings, selection: str | None, where: str) -> Se
             f"{where}{suggestion(selection, keys)}; give one of {', '.join(keys)}"
         )
     return replace(settings, selection=selection)
+
+
+def _in_order(mean_ranks: pd.Series, families: dict[str, str], settings: Settings) -> pd.Series:
+    """Mean ranks best first, equal ones in the tie-break rule's order."""
+    return mean_ranks[ordered(mean_ranks, families, settings.simpler_first)]
 
 
 def analyse(results: Results, *, selection: str | None = None) -> Analysis:
@@ -302,7 +309,14 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
     with_pairs = {selection, OVERALL, *settings.headline}
     tests = {
         key: _tests(
-            summary, key, all_directions[key], methods, winner, settings.alpha, key in with_pairs
+            summary,
+            key,
+            all_directions[key],
+            methods,
+            winner,
+            settings,
+            families,
+            key in with_pairs,
         )
         for key in tested
         if key in present

@@ -29,6 +29,8 @@ __all__ = [
     "over_blocks",
 ]
 
+TIE_DECIMALS = 12
+"""Block means equal to this many decimals are ranked as ties."""
 SUMMARY_COLUMNS = ["dataset", "method", "family", "criterion", "mean", "sd", "n"]
 
 
@@ -52,7 +54,9 @@ def rank_table(
 
     A configuration with no score in a block where others have one (it failed there, or the
     criterion was skipped) takes the worst rank, tied with the other missing ones; blocks
-    where no configuration has the criterion are dropped.
+    where no configuration has the criterion are dropped. Means equal to 12 decimals tie:
+    two methods that compute the same embedding differ only by rounding (PCA and classical
+    MDS on Euclidean data, for instance).
 
     Returns a data frame: index blocks, columns configurations.
     """
@@ -60,7 +64,7 @@ def rank_table(
     wide = part.pivot_table(index="dataset", columns="method", values="mean", aggfunc="first")
     if methods is not None:
         wide = wide.reindex(columns=list(methods))
-    wide = wide.dropna(how="all")
+    wide = wide.dropna(how="all").round(TIE_DECIMALS)
     return wide.rank(axis=1, ascending=not higher, method="average", na_option="bottom")
 
 

@@ -169,9 +169,8 @@ def resolve_settings(
     from lowdim.metrics import default_headline, get_metric, metric_names
 
     scored = list(suite.metrics) if suite.metrics is not None else metric_names()
-    for runner_metric in ("fit_seconds", "peak_mb"):
-        if runner_metric not in scored:
-            scored.append(runner_metric)
+    # the runner records its measurements for every job, whatever the suite asks
+    scored += [n for n in metric_names() if get_metric(n).measured_by_runner and n not in scored]
     criteria = []
     uses_k: dict[str, bool] = {}
     for name in scored:
