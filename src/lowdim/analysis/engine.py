@@ -28,9 +28,10 @@ from lowdim.analysis.ranking import (
     ordered,
     overall_summary,
     positions,
-    rank_table,
+    rank_wide,
     summarise,
     tuned_summary,
+    wide_means,
 )
 from lowdim.analysis.results import Results, criterion_table, load_results
 from lowdim.analysis.stability import seed_stability
@@ -109,6 +110,9 @@ class Analysis:
         Mean rank on the selection per configuration, in :attr:`order`.
     tests : dict
         Criterion key (and ``"overall"``) -> :class:`CriterionTests`.
+    means, ranks : dict
+        Criterion key -> block means, and ranks within blocks, laid out blocks x
+        configurations (every configuration a column, in :attr:`order`).
     """
 
     settings: Settings
@@ -120,6 +124,8 @@ class Analysis:
     position: dict[str, str]
     selection_ranks: pd.Series
     tests: dict[str, CriterionTests]
+    means: dict[str, pd.DataFrame]
+    ranks: dict[str, pd.DataFrame]
     tuned: pd.DataFrame
     gaps: pd.DataFrame
     failures: pd.DataFrame
@@ -165,11 +171,20 @@ class Analysis:
     def family(self, method: str) -> str:
         return self.settings.families.get(method) or _family_of(self.results, method)
 
-    def leaders(self) -> list[str]:
-        """The configurations a reader sees first: the winner, the runner-up, the best PCA."""
-        out = self.order[:2]
-        pca = [m for m in self.order if self.family(m) == "pca"]
-        return list(dict.fromkeys(out + pca[:1]))
+    def leaders(self, size: int = 4) -> list[str]:
+        """The configurations a reader sees first: the winner, the runner-up, the best PCA,
+        then the best configuration of each other method family until ``size`` are named."""
+        out = list(self.order[:2])
+        out += [m for m in self.order if self.family(m) == "pca"][:1]
+        out = list(dict.fromkeys(out))
+        shown = {self.family(m) for m in out}
+        for m in self.order:
+            if len(out) >= size:
+                break
+            if self.family(m) not in shown:
+                out.append(m)
+                shown.add(self.family(m))
+        return out
 
     def tied_with_winner(self) -> list[str]:
         """Configurations whose mean rank on the selection equals the winner's."""
@@ -184,17 +199,10 @@ def _family_of(results: Results, method: str) -> str:
     return str(hit.iloc[0]) if len(hit) else method
 
 
-def _block_values(summary: pd.DataFrame, key: str) -> pd.DataFrame:
-    part = summary[summary["criterion"] == key]
-    return part.pivot_table(index="dataset", columns="method", values="mean", aggfunc="first")
-
-
-def _pairs(
-    summary: pd.DataFrame, key: str, higher: bool, winner: str, others: list[str]
-) -> tuple[Pair, ...]:
-    """Wilcoxon signed-rank of the winner against each other configuration on ``key``, Holm
-    over those comparisons. Blocks where either side has no value are left out of a pair."""
-    wide = _block_values(summary, key)
+def _pairs(wide: pd.DataFrame, higher: bool, winner: str, others: list[str]) -> tuple[Pair, ...]:
+    """Wilcoxon signed-rank of the winner against each other configuration on the block means
+    ``wide``, Holm over those comparisons. Blocks where either side has no value are left out
+    of a pair."""
     if winner not in wide:
         return ()
     raw = []
@@ -226,7 +234,7 @@ def _pairs(
 
 
 def _tests(
-    summary: pd.DataFrame,
+    wide: pd.DataFrame,
     key: str,
     higher: bool,
     methods: list[str],
@@ -236,7 +244,7 @@ def _tests(
     with_pairs: bool,
 ) -> CriterionTests:
     alpha = settings.alpha
-    ranks = rank_table(summary, key, higher, methods)
+    ranks = rank_wide(wide, higher, methods)
     ranks = ranks.loc[:, ranks.notna().any(axis=0)]
     n, k = ranks.shape
     friedman, q, cd = None, None, None
@@ -246,7 +254,7 @@ def _tests(
         cd = stats.critical_difference(k, n, alpha)
     pairs: tuple[Pair, ...] = ()
     if with_pairs and winner is not None and k >= 2:
-        pairs = _pairs(summary, key, higher, winner, [m for m in methods if m != winner])
+        pairs = _pairs(wide, higher, winner, [m for m in methods if m != winner])
     return CriterionTests(
         key=key,
         higher_is_better=higher,
@@ -297,7 +305,9 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
     all_directions = {**directions, OVERALL: False}
     selection = settings.selection
     higher = all_directions.get(selection, False)
-    selection_ranks = rank_table(summary, selection, higher, methods).mean(axis=0)
+    means = wide_means(summary)
+    empty = pd.DataFrame(columns=methods, dtype=float)
+    selection_ranks = rank_wide(means.get(selection, empty), higher, methods).mean(axis=0)
     # a configuration with no finished job anywhere still takes a place, after the others
     selection_ranks = selection_ranks.reindex(methods).fillna(math.inf)
     order = ordered(selection_ranks, families, settings.simpler_first)
@@ -307,9 +317,11 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
     present = set(summary["criterion"])
     tested = [OVERALL] + [c.key for c in settings.criteria]
     with_pairs = {selection, OVERALL, *settings.headline}
+    means = {k: v.reindex(columns=order) for k, v in means.items()}
+    ranks = {k: rank_wide(v, all_directions.get(k, True), order) for k, v in means.items()}
     tests = {
         key: _tests(
-            summary,
+            means[key],
             key,
             all_directions[key],
             methods,
@@ -338,6 +350,8 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
         position=place,
         selection_ranks=selection_ranks,
         tests=tests,
+        means=means,
+        ranks=ranks,
         tuned=tuned_summary(summary, selection, higher, settings.simpler_first),
         gaps=gaps_to_best(summary, all_directions),
         failures=failures.reset_index(drop=True),

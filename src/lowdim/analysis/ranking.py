@@ -19,6 +19,8 @@ from lowdim.run.settings import OVERALL
 __all__ = [
     "summarise",
     "rank_table",
+    "rank_wide",
+    "wide_means",
     "overall_summary",
     "tie_break_key",
     "ordered",
@@ -62,10 +64,25 @@ def rank_table(
     """
     part = summary[summary["criterion"] == criterion]
     wide = part.pivot_table(index="dataset", columns="method", values="mean", aggfunc="first")
+    return rank_wide(wide, higher, methods)
+
+
+def rank_wide(
+    wide: pd.DataFrame, higher: bool, methods: Sequence[str] | None = None
+) -> pd.DataFrame:
+    """:func:`rank_table` of block means already laid out blocks x configurations."""
     if methods is not None:
         wide = wide.reindex(columns=list(methods))
     wide = wide.dropna(how="all").round(TIE_DECIMALS)
     return wide.rank(axis=1, ascending=not higher, method="average", na_option="bottom")
+
+
+def wide_means(summary: pd.DataFrame) -> dict[str, pd.DataFrame]:
+    """Criterion key -> block means laid out blocks x configurations, in one pass."""
+    out = {}
+    for key, part in summary.groupby("criterion", sort=False):
+        out[str(key)] = part.pivot(index="dataset", columns="method", values="mean")
+    return out
 
 
 def overall_summary(

@@ -17,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from lowdim.analysis.engine import Analysis, CriterionTests
-from lowdim.analysis.ranking import over_blocks, rank_table
+from lowdim.analysis.ranking import over_blocks
 from lowdim.report import format as fmt
 from lowdim.report.narrative import blocks_phrase, strength, test_form, verdict
 from lowdim.report.views import (
@@ -60,9 +60,7 @@ def leaderboard_csv(an: Analysis) -> str:
     rows = []
     criteria = [an.selection] + [k for k in an.criteria if k != an.selection]
     values = over_blocks(an.summary).set_index(["method", "criterion"])
-    ranks = {
-        k: rank_table(an.summary, k, an.directions[k], an.order).mean(axis=0) for k in criteria
-    }
+    ranks = {k: an.ranks[k].mean(axis=0) for k in criteria}
     for m in an.order:
         for k in criteria:
             v = values.loc[(m, k)] if (m, k) in values.index else None
@@ -91,18 +89,15 @@ def leaderboard_csv(an: Analysis) -> str:
 
 def _block_rows(an: Analysis, criteria: list[str]) -> list[list[dict]]:
     out = []
-    summary = an.summary
+    cells = an.summary.set_index(["dataset", "criterion", "method"]).sort_index()
     for dataset in an.blocks:
-        part = summary[summary["dataset"] == dataset]
         rows = []
         for k in criteria:
-            ranks = rank_table(part, k, an.directions[k], an.order)
-            if ranks.empty:
+            if dataset not in an.ranks[k].index:
                 continue
-            r = ranks.iloc[0]
-            cells = part[part["criterion"] == k].set_index("method")
+            r = an.ranks[k].loc[dataset]
             for m in sorted(an.order, key=lambda m: (r.get(m, math.inf), an.order.index(m))):
-                hit = cells.loc[m] if m in cells.index else None
+                hit = cells.loc[(dataset, k, m)] if (dataset, k, m) in cells.index else None
                 rows.append(
                     {
                         "scope": "dataset",

@@ -10,10 +10,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-import pandas as pd
-
 from lowdim.analysis.engine import Analysis
-from lowdim.analysis.ranking import natural_key, over_blocks, rank_table
+from lowdim.analysis.ranking import natural_key, over_blocks
 from lowdim.report import format as fmt
 from lowdim.run.settings import OVERALL, parse_criterion
 
@@ -60,10 +58,7 @@ def overall_table(an: Analysis, *, values: bool = False) -> Table:
     header = ["place", "configuration", _selection_header(an)]
     header += [criterion_title(k) + _arrow(an, k) for k in keys]
     table = Table(title="Leaderboard", header=header)
-    methods = list(an.order)
-    mean_ranks = {
-        k: rank_table(an.summary, k, an.directions[k], methods).mean(axis=0) for k in keys
-    }
+    mean_ranks = {k: an.ranks[k].mean(axis=0) for k in keys}
     blocks = over_blocks(an.summary).set_index(["method", "criterion"])
     best_sel = an.selection_ranks.min() if len(an.selection_ranks) else math.nan
     for m in an.order:
@@ -105,42 +100,44 @@ def overall_table(an: Analysis, *, values: bool = False) -> Table:
 
 def _dataset_order(an: Analysis, dataset: str) -> list[str]:
     """Configurations by their rank on the selection within one block, ties as the verdict."""
-    part = an.summary[
-        (an.summary["dataset"] == dataset) & (an.summary["criterion"] == an.selection)
-    ]
-    higher = an.directions.get(an.selection, False)
-    value = part.set_index("method")["mean"]
+    ranks = an.ranks.get(an.selection)
+    if ranks is None or dataset not in ranks.index:
+        return list(an.order)
+    row = ranks.loc[dataset]
     index = {m: i for i, m in enumerate(an.order)}
-
-    def key(m: str) -> tuple:
-        v = value.get(m, math.nan)
-        missing = not math.isfinite(v)
-        return (missing, 0.0 if missing else (-v if higher else v), index.get(m, 10**9))
-
-    return sorted(an.order, key=key)
+    return sorted(an.order, key=lambda m: (row.get(m, math.inf), index[m]))
 
 
 def dataset_tables(an: Analysis) -> list[Table]:
     """One table per block: configurations by rank there, headline means ± seed spread with
     the rank after ``#``."""
     keys = an.headline
+    cells = {
+        (d, m, c): (mean, sd)
+        for d, m, c, mean, sd in zip(
+            an.summary["dataset"],
+            an.summary["method"],
+            an.summary["criterion"],
+            an.summary["mean"],
+            an.summary["sd"],
+            strict=True,
+        )
+    }
     out = []
-    for dataset in sorted(an.summary["dataset"].unique(), key=natural_key):
-        part = an.summary[an.summary["dataset"] == dataset]
+    for dataset in an.blocks:
         header = ["configuration"] + [criterion_title(k) + _arrow(an, k) for k in keys]
         table = Table(title=str(dataset), header=header)
-        ranks = {k: rank_table(part, k, an.directions[k], an.order) for k in keys}
+        ranks = {k: an.ranks[k].loc[dataset] for k in keys if dataset in an.ranks[k].index}
         for m in _dataset_order(an, dataset):
             row = [_cell(m)]
             for k in keys:
-                hit = part[(part["method"] == m) & (part["criterion"] == k)]
-                if hit.empty or pd.isna(hit["mean"].iloc[0]):
+                mean, sd = cells.get((dataset, m, k), (math.nan, math.nan))
+                if k not in ranks or not math.isfinite(mean):
                     row.append(_cell("no score"))
                     continue
-                r = ranks[k].iloc[0][m] if not ranks[k].empty else math.nan
-                best = not ranks[k].empty and r == ranks[k].iloc[0].min()
-                text = f"{fmt.mean_sd(hit['mean'].iloc[0], hit['sd'].iloc[0])} (#{r:g})"
-                row.append(_cell(text, best))
+                r = ranks[k][m]
+                text = f"{fmt.mean_sd(mean, sd)} (#{r:g})"
+                row.append(_cell(text, r == ranks[k].min()))
             table.rows.append(row)
         table.note = (
             f"Mean ± standard deviation over seeds; the rank on {dataset} after #. Sorted by "
