@@ -88,9 +88,11 @@ def test_a_run_names_one_winner_everywhere_with_a_tie(tmp_path: Path, capsys) ->
     summaries = html[
         html.index('<section id="verdict">') : html.index('<section id="statistics">')
     ]
-    for text in (printed, (out / "leaderboard.md").read_text(), summaries):
+    for text in ((out / "leaderboard.md").read_text(), summaries):
         assert "trustworthiness (K = 10)" in text
         assert "trustworthiness (K = 5)" not in text and "trustworthiness (K = 30)" not in text
+    assert "trustworthiness@10" in printed  # the terminal heads columns with the keys
+    assert "trustworthiness@5" not in printed and "trustworthiness@30" not in printed
 
 
 def test_a_comparison_names_one_winner_everywhere_with_a_tie(tmp_path: Path, capsys) -> None:

@@ -67,3 +67,74 @@ def test_a_suite_headline_list_sets_the_columns(tmp_path: Path, write_store) -> 
     )
     stats = json.loads((folder / "stats.json").read_text())
     assert stats["headline"] == ["continuity@5", "stress"]
+
+
+PLUGIN = '''
+import numpy as np
+from sklearn.base import BaseEstimator, TransformerMixin
+from lowdim.methods import register_method
+
+
+@register_method("report_test_columns")
+class FirstColumns(TransformerMixin, BaseEstimator):
+    """The first columns, centred: a naive baseline."""
+
+    def __init__(self, n_components=2):
+        self.n_components = n_components
+
+    def fit(self, X, y=None):
+        self.mean_ = np.asarray(X, float)[:, : self.n_components].mean(axis=0)
+        return self
+
+    def transform(self, X):
+        return np.asarray(X, float)[:, : self.n_components] - self.mean_
+'''
+
+SUITE = """
+[suite]
+name = "gone"
+seeds = [0]
+neighbors = [5, 10]
+metrics = ["trustworthiness", "rnx_auc"]
+
+[[datasets]]
+name = "swiss_roll"
+n = 120
+
+[[datasets]]
+name = "s_curve"
+n = 120
+
+[[methods]]
+name = "pca"
+
+[[methods]]
+name = "report_test_columns"
+"""
+
+
+def test_the_report_needs_neither_the_suite_file_nor_the_plugin(tmp_path: Path) -> None:
+    # A fresh interpreter for each command, as a user's shell would have: the second one never
+    # loads the plugin, and the suite file is gone.
+    import subprocess
+    import sys
+
+    plugin, suite, out = tmp_path / "plugin.py", tmp_path / "gone.toml", tmp_path / "out"
+    plugin.write_text(PLUGIN)
+    suite.write_text(SUITE)
+    command = [sys.executable, "-m", "lowdim"]
+    ran = subprocess.run(
+        [*command, "run", str(suite), "--out", str(out), "--plugin", str(plugin), "-q"],
+        capture_output=True,
+        text=True,
+    )
+    assert ran.returncode == 0, ran.stderr
+    first = {name: (out / name).read_bytes() for name in OUTPUTS}
+    plugin.unlink()
+    suite.unlink()
+    again = subprocess.run([*command, "report", str(out)], capture_output=True, text=True)
+    assert again.returncode == 0, again.stderr
+    for name, content in first.items():
+        assert (out / name).read_bytes() == content, name
+    stats = json.loads((out / "stats.json").read_text())
+    assert {o["configuration"] for o in stats["order"]} == {"pca", "report_test_columns"}

@@ -79,7 +79,7 @@ def run(args: argparse.Namespace) -> int:
     run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
     analysis = analyse_folder(plan.out_dir)
     report = build_report(plan.out_dir)
-    board = overall_table(analysis, values=True)
+    board = overall_table(analysis, values=True, compact=True)
     parts = [
         f"Ranked by {board.header[2]} (mean ± spread of each headline criterion):",
         fixed_width(board),

@@ -10,16 +10,15 @@ step leaves nothing behind.
 from __future__ import annotations
 
 import argparse
-import os
 import re
 import sys
-import tempfile
 import warnings
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from lowdim._files import atomic_path
 from lowdim.errors import InputError, suggestion
 
 HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
@@ -137,23 +136,17 @@ def _label_values(dataset: Any) -> np.ndarray | None:
 def write_embedding(
     path: Path, Y: np.ndarray, labels: np.ndarray | None = None, label_name: str | None = None
 ) -> None:
-    """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) via a temporary name."""
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            if path.suffix.lower() == ".npy":
-                np.save(fh, Y)
-            else:
-                import pandas as pd
+    """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) atomically, mode 0644."""
+    with atomic_path(path) as temporary, open(temporary, "wb") as fh:
+        if path.suffix.lower() == ".npy":
+            np.save(fh, Y)
+        else:
+            import pandas as pd
 
-                frame = pd.DataFrame(Y, columns=[f"dim{i + 1}" for i in range(Y.shape[1])])
-                if labels is not None:
-                    frame[label_name or "label"] = labels
-                frame.to_csv(fh, index=False, lineterminator="\n")
-        os.replace(tmp, path)
-    except BaseException:
-        os.unlink(tmp)
-        raise
+            frame = pd.DataFrame(Y, columns=[f"dim{i + 1}" for i in range(Y.shape[1])])
+            if labels is not None:
+                frame[label_name or "label"] = labels
+            frame.to_csv(fh, index=False, lineterminator="\n")
 
 
 def _warn(caught: list[warnings.WarningMessage]) -> None:

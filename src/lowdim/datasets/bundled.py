@@ -22,6 +22,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from lowdim._files import atomic_path
 from lowdim.datasets._base import Dataset, Family, register
 from lowdim.datasets.checks import numeric_matrix
 from lowdim.datasets.preprocess import PREPROCESS_PARAMS
@@ -116,12 +117,8 @@ def _cache_paths(ident: int | str, cache: Path) -> tuple[Path, Path]:
 
 
 def _write_atomically(path: Path, write) -> None:
-    temporary = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
+    with atomic_path(path) as temporary:
         write(temporary)
-        os.replace(temporary, path)
-    finally:
-        temporary.unlink(missing_ok=True)
 
 
 def _download(ident: int | str, cache: Path, where: str) -> None:

@@ -36,7 +36,7 @@ def wrap_sentence(sentence: str) -> str:
 
 def run_summary(an: Analysis) -> str:
     """The verdict, its strength and the leaderboard, as ``lowdim run --no-report`` prints it."""
-    board = overall_table(an)
+    board = overall_table(an, compact=True)
     parts = [wrap_sentence(verdict(an)), wrap_sentence(strength(an)), "", fixed_width(board)]
     parts += ["", textwrap.fill(board.note, width=WIDTH)]
     return "\n".join(parts)

@@ -50,13 +50,14 @@ def _selection_header(an: Analysis) -> str:
     return f"{criterion_title(an.selection)} (mean rank)"
 
 
-def overall_table(an: Analysis, *, values: bool = False) -> Table:
+def overall_table(an: Analysis, *, values: bool = False, compact: bool = False) -> Table:
     """Every configuration in the verdict's order: its place, its mean rank on the selection,
     and per headline criterion its mean rank over the blocks (``values=False``) or its mean
-    and spread over the blocks (``values=True``, the comparison's table)."""
+    and spread over the blocks (``values=True``, the comparison's table). ``compact`` heads
+    the columns with criterion keys (``trustworthiness@10``), for a terminal."""
     keys = an.headline
     header = ["place", "configuration", _selection_header(an)]
-    header += [criterion_title(k) + _arrow(an, k) for k in keys]
+    header += [(k if compact else criterion_title(k)) + _arrow(an, k) for k in keys]
     table = Table(title="Leaderboard", header=header)
     mean_ranks = {k: an.ranks[k].mean(axis=0) for k in keys}
     blocks = over_blocks(an.summary).set_index(["method", "criterion"])
