@@ -472,7 +472,8 @@ def scaling_curves(scaling: pd.DataFrame, fits: pd.DataFrame, path: Path) -> Pat
         _log_axis(ax, "y")
         ax.set_xlabel("n (points)")
         ax.set_ylabel(label)
-        ax.legend(fontsize=6, frameon=False)
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(fontsize=6, frameon=False)
     fig.subplots_adjust(hspace=0.6, wspace=0.35)
     return _save(fig, path)
 
