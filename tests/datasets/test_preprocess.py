@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 from sklearn.decomposition import PCA
-from sklearn.preprocessing import MinMaxScaler, StandardScaler
+from sklearn.preprocessing import MinMaxScaler, RobustScaler, StandardScaler
 
 from lowdim.datasets import load
 from lowdim.datasets.preprocess import preprocess
@@ -24,6 +24,13 @@ def test_minmax_scaling_matches_minmax_scaler():
     # sklearn.preprocessing.MinMaxScaler, default range [0, 1].
     assert_allclose(
         preprocess(X, {"scale": "minmax"}, "here", COLUMNS), MinMaxScaler().fit_transform(X)
+    )
+
+
+def test_robust_scaling_matches_robust_scaler():
+    # sklearn.preprocessing.RobustScaler: median removed, divided by the 25-75 % range.
+    assert_allclose(
+        preprocess(X, {"scale": "robust"}, "here", COLUMNS), RobustScaler().fit_transform(X)
     )
 
 

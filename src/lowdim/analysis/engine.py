@@ -139,6 +139,36 @@ class Analysis:
     notes: list[str] = field(default_factory=list)
 
     @property
+    def effect(self) -> str:
+        """The criterion in whose units effects are stated: the selection, or the first
+        headline criterion when the selection is the overall rank (a rank has no units)."""
+        if self.selection != OVERALL:
+            return self.selection
+        return self.headline[0] if self.headline else ""
+
+    def first_share(self) -> pd.Series:
+        """For each configuration, the share of blocks where it ranks first on the selection
+        (a tie for first counts for each tied configuration), in :attr:`order`."""
+        ranks = self.ranks.get(self.selection)
+        if ranks is None or ranks.empty:
+            return pd.Series(0.0, index=self.order)
+        best = ranks.min(axis=1)
+        first = ranks.eq(best, axis=0)
+        return first.mean(axis=0).reindex(self.order).fillna(0.0)
+
+    def lead(self) -> pd.Series:
+        """The winner's lead over the runner-up in each block, in :attr:`effect`'s units
+        (positive when the winner is better); blocks where either has no value are left
+        out."""
+        key, runner = self.effect, self.runner_up
+        means = self.means.get(key)
+        if runner is None or means is None or self.winner not in means:
+            return pd.Series(dtype=float)
+        both = means[[self.winner, runner]].dropna()
+        sign = 1.0 if self.directions.get(key, True) else -1.0
+        return sign * (both[self.winner] - both[runner])
+
+    @property
     def selection(self) -> str:
         return self.settings.selection
 

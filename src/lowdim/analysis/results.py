@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import json
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -51,6 +51,9 @@ class Results:
         The ``runs`` table.
     settings : Settings
         The settings record of the latest run.
+    confirmation : DataFrame
+        The jobs of the confirmation run that followed the latest run of a comparison (the
+        columns of ``jobs``), empty when there is none; ``confirmation_scores`` their scores.
     """
 
     out_dir: Path
@@ -58,6 +61,8 @@ class Results:
     scores: pd.DataFrame
     runs: pd.DataFrame
     settings: Settings
+    confirmation: pd.DataFrame = field(default_factory=pd.DataFrame)
+    confirmation_scores: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def embedding_path(self, job_id: str) -> Path:
         """Where the runner keeps a job's embedding."""
@@ -129,6 +134,33 @@ def _latest_plan(jobs: pd.DataFrame, planned: pd.DataFrame, run_id: int) -> pd.D
     return jobs[jobs["job_id"].isin(latest)].reset_index(drop=True)
 
 
+def _labelled(jobs: pd.DataFrame) -> pd.DataFrame:
+    """Jobs with their display labels, specs without seeds and numeric columns."""
+    if jobs.empty:
+        return jobs
+    jobs = jobs.copy()
+    jobs["data_spec"] = jobs["dataset_params"].map(json_dict).map(lambda d: _without(d, ("seed",)))
+    jobs["config_spec"] = (
+        jobs["method_params"].map(json_dict).map(lambda d: _without(d, _SEED_KEYS))
+    )
+    jobs["data"] = _unique_labels(jobs["dataset_label"], jobs["data_spec"])
+    jobs["config"] = _unique_labels(jobs["method_label"], jobs["config_spec"])
+    jobs["family"] = jobs["method"].astype(str)
+    for col in ("fit_seconds", "peak_mb", "n_samples", "n_features", "seed"):
+        jobs[col] = pd.to_numeric(jobs[col], errors="coerce")
+    return jobs
+
+
+def _scores_of(scores: pd.DataFrame, jobs: pd.DataFrame) -> pd.DataFrame:
+    """The scores of ``jobs``, ``k`` and ``value`` numeric."""
+    if scores.empty or jobs.empty:
+        return pd.DataFrame(columns=["job_id", "metric", "k", "value"])
+    out = scores[scores["job_id"].isin(set(jobs["job_id"]))].reset_index(drop=True)
+    out["k"] = pd.to_numeric(out["k"]).fillna(0).astype(int)
+    out["value"] = pd.to_numeric(out["value"], errors="coerce")
+    return out
+
+
 def load_results(out_dir: str | Path) -> Results:
     """Read ``out_dir/store.sqlite`` (read-only) into a :class:`Results`.
 
@@ -153,35 +185,37 @@ def load_results(out_dir: str | Path) -> Results:
     finally:
         store.close()
     recorded = runs.dropna(subset=["settings"]) if "settings" in runs else runs.iloc[0:0]
-    if recorded.empty:
+    confirming = recorded["kind"].eq("confirmation") if "kind" in recorded else False
+    main = recorded[~confirming] if len(recorded) else recorded
+    if main.empty:
         raise InputError(
             f"the results store in {str(out_dir)!r} has no settings record (it was written by "
             "an older lowdim); run its suite again into the same folder: finished jobs are "
             "reused and the record is written"
         )
-    latest = recorded.sort_values("run_id").iloc[-1]
+    latest = main.sort_values("run_id").iloc[-1]
     settings = Settings.from_json(str(latest["settings"]))
-    jobs = _latest_plan(jobs, planned, int(latest["run_id"]))
+    later = recorded[confirming & (recorded["run_id"] > latest["run_id"])]
+    confirm_jobs = pd.DataFrame()
+    if len(later):
+        confirm_jobs = _labelled(_latest_plan(jobs, planned, int(later["run_id"].max())))
+    jobs = _labelled(_latest_plan(jobs, planned, int(latest["run_id"])))
     if jobs.empty:
         raise InputError(
             f"the results store in {str(out_dir)!r} holds no finished job of its latest run "
             "yet; run the suite into that folder first"
         )
-    if scores.empty:
-        scores = pd.DataFrame(columns=["job_id", "metric", "k", "value"])
-    scores = scores[scores["job_id"].isin(set(jobs["job_id"]))].reset_index(drop=True)
-    scores["k"] = pd.to_numeric(scores["k"]).fillna(0).astype(int)
-    scores["value"] = pd.to_numeric(scores["value"], errors="coerce")
-    jobs["data_spec"] = jobs["dataset_params"].map(json_dict).map(lambda d: _without(d, ("seed",)))
-    jobs["config_spec"] = (
-        jobs["method_params"].map(json_dict).map(lambda d: _without(d, _SEED_KEYS))
+    confirm_scores = _scores_of(scores, confirm_jobs)
+    scores = _scores_of(scores, jobs)
+    return Results(
+        out_dir=out_dir,
+        jobs=jobs,
+        scores=scores,
+        runs=runs,
+        settings=settings,
+        confirmation=confirm_jobs,
+        confirmation_scores=confirm_scores,
     )
-    jobs["data"] = _unique_labels(jobs["dataset_label"], jobs["data_spec"])
-    jobs["config"] = _unique_labels(jobs["method_label"], jobs["config_spec"])
-    jobs["family"] = jobs["method"].astype(str)
-    for col in ("fit_seconds", "peak_mb", "n_samples", "n_features", "seed"):
-        jobs[col] = pd.to_numeric(jobs[col], errors="coerce")
-    return Results(out_dir=out_dir, jobs=jobs, scores=scores, runs=runs, settings=settings)
 
 
 def criterion_table(results: Results) -> pd.DataFrame:

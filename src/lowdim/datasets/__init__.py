@@ -9,6 +9,14 @@ say what there is.
 
 from lowdim.datasets._base import Dataset, dataset_names
 from lowdim.datasets.checks import DataWarning
-from lowdim.datasets.specs import describe, load, validate_spec
+from lowdim.datasets.specs import describe, load, subsample_rows, validate_spec
 
-__all__ = ["Dataset", "DataWarning", "load", "validate_spec", "dataset_names", "describe"]
+__all__ = [
+    "Dataset",
+    "DataWarning",
+    "load",
+    "validate_spec",
+    "dataset_names",
+    "describe",
+    "subsample_rows",
+]

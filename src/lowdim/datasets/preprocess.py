@@ -1,9 +1,11 @@
 """Preprocessing named in a dataset spec, applied in a fixed order: log1p, scale, pca_first.
 
 ``log1p = true`` maps each value x to log(1 + x) (count data); ``scale = "standard"`` centres
-each column and divides by its standard deviation (ddof = 0), ``"minmax"`` maps each column
-onto [0, 1]; ``pca_first = N`` keeps the first N principal components (a common first step
-before a nonlinear method on wide data, common practice).
+each column and divides by its standard deviation (ddof = 0), ``"robust"`` subtracts each
+column's median and divides by its interquartile range (so a few extreme values do not set the
+unit), ``"minmax"`` maps each column onto [0, 1]; ``pca_first = N`` keeps the first N
+principal components (a common first step before a nonlinear method on wide data, common
+practice).
 """
 
 from __future__ import annotations
@@ -18,7 +20,7 @@ __all__ = ["PREPROCESS_PARAMS", "preprocess"]
 
 PREPROCESS_PARAMS: dict[str, Param] = {
     "scale": Param(
-        "none", (Options(("none", "standard", "minmax")),), "column scaling after log1p"
+        "none", (Options(("none", "standard", "robust", "minmax")),), "column scaling after log1p"
     ),
     "log1p": Param(False, (BOOL,), "replace each value x by log(1 + x) first"),
     "pca_first": Param(
@@ -45,6 +47,10 @@ def preprocess(
     if scale == "standard":
         spread = X.std(axis=0)
         X = (X - X.mean(axis=0)) / np.where(spread > 0, spread, 1.0)
+    elif scale == "robust":
+        low, middle, high = np.percentile(X, [25.0, 50.0, 75.0], axis=0)
+        spread = high - low
+        X = (X - middle) / np.where(spread > 0, spread, 1.0)
     elif scale == "minmax":
         low = X.min(axis=0)
         span = X.max(axis=0) - low

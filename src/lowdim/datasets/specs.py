@@ -23,7 +23,7 @@ from lowdim.datasets._base import Dataset, Param, get_family
 from lowdim.datasets.preprocess import PREPROCESS_PARAMS, preprocess
 from lowdim.errors import InputError, suggestion
 
-__all__ = ["SOURCE_PARAMS", "validate_spec", "load", "describe"]
+__all__ = ["SOURCE_PARAMS", "validate_spec", "load", "describe", "subsample_rows"]
 
 
 @dataclass(frozen=True)
@@ -224,13 +224,19 @@ def load(spec: dict) -> Dataset:
     return dataset
 
 
+def subsample_rows(n: int, size: int, seed: int) -> np.ndarray:
+    """The rows a ``subsample = size`` spec keeps of ``n`` rows with ``subsample_seed = seed``:
+    ``size`` distinct rows drawn at random, in file order."""
+    rng = np.random.default_rng(seed)
+    return np.sort(rng.choice(n, size, replace=False))
+
+
 def _subsample(dataset: Dataset, params: dict) -> Dataset:
     """Keep ``params["subsample"]`` random rows (in file order), or all when there are fewer."""
     size = params.get("subsample")
     if size is None or size >= dataset.n_samples:
         return dataset
-    rng = np.random.default_rng(params.get("subsample_seed", 0))
-    rows = np.sort(rng.choice(dataset.n_samples, size, replace=False))
+    rows = subsample_rows(dataset.n_samples, size, params.get("subsample_seed", 0))
     meta = {**dataset.meta, "subsample_rows": size, "rows_in_file": dataset.n_samples}
     return dataclasses.replace(
         dataset,

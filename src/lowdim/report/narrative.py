@@ -190,11 +190,8 @@ def statistics_reading(an: Analysis, key: str) -> list[str]:
 
 
 def effect_criterion(an: Analysis) -> str:
-    """The criterion in whose units effects are stated: the selection, or the first headline
-    criterion when the selection is the overall rank."""
-    if an.selection != OVERALL:
-        return an.selection
-    return an.headline[0] if an.headline else ""
+    """The criterion in whose units effects are stated (:attr:`Analysis.effect`)."""
+    return an.effect
 
 
 def method_profiles(an: Analysis) -> dict[str, list[str]]:

@@ -1,13 +1,17 @@
-"""Choosing a method for one's own data: the standard comparison on one file.
+"""Choosing a method for one's own data: the comparison of one file, planned.
 
-:func:`plan_comparison` reads the file once (every bad-input check happens there, before
-anything is written), looks at the data (size, duplicate rows, neighbour-graph components,
-the median distance that scales the bandwidth sweep) and builds a suite: the five built-in
-methods with bandwidth and neighbour-count sweeps, the bandwidth rules among them, every
-plugin method, over several seeds; a file with more rows than ``max_rows`` is compared on
-repeated random subsamples of that size, one suite dataset per subsample.
-:func:`run_comparison` runs it with the runner (which also builds the report) and turns the
-scores into the ranked table and the recommendation (:mod:`lowdim.analysis.recommend`).
+:func:`plan_comparison` reads the file (every bad-input check happens there, before anything
+is written), reports what it sees in the columns (:mod:`lowdim.run.columns`), looks at the
+data (size, duplicate rows, neighbour-graph components, the median distance that scales the
+bandwidth sweep) and builds a suite: the candidate configurations of the chosen sweep
+(:mod:`lowdim.run.sweeps`), over repeated random subsamples of the file's rows.
+
+The subsamples are the blocks of every test: :data:`RESAMPLES` draws of :data:`FRACTION` of
+the rows without replacement (at most ``max_rows`` each), each drawn with its own seed, so a
+deterministic method gets a spread from the data itself. Within a subsample each
+configuration runs with the sweep's seeds (one in the quick and standard sweeps, three in the
+full one), which vary the stochastic methods. A subsample repeats no row, unlike a bootstrap
+sample, so neighbourhood criteria never see zero distances (REFERENCES.md, common practice).
 """
 
 from __future__ import annotations
@@ -21,41 +25,70 @@ from typing import Any
 import numpy as np
 
 from lowdim.errors import InputError
+from lowdim.run.columns import column_findings
+from lowdim.run.sweeps import SWEEPS, method_tables, neighbour_grid, select_methods
 
 __all__ = [
     "MAX_ROWS",
+    "FRACTION",
+    "RESAMPLES",
+    "SCALES",
+    "CompareOptions",
     "ComparePlan",
     "plan_comparison",
     "run_comparison",
     "default_out_dir",
-    "neighbour_counts",
+    "criterion_ks",
     "median_distance",
+    "graph_components",
 ]
 
 MAX_ROWS = 3000
-# Multiples of the median pairwise distance tried as fixed bandwidths, beside the rules.
-SCALES = (0.25, 0.5, 2.0, 4.0)
-QUICK_SCALES = (0.5,)
-RULES = ("median", "local", "kernel_sum")
-NEIGHBOURS = (5, 10, 30)
-QUICK_NEIGHBOURS = (10,)
-SEEDS = (0, 1, 2)
-QUICK_SEEDS = (0, 1)
+FRACTION = 0.8
+RESAMPLES = {"quick": 3, "standard": 5, "full": 5}
+_SEEDS = {"quick": (0,), "standard": (0,), "full": (0, 1, 2)}
+_CRITERION_KS = (5, 10, 30)
+SCALES = ("none", "standard", "robust", "minmax")
+
+
+@dataclass(frozen=True)
+class CompareOptions:
+    """What the user chose on the command line (``lowdim compare --help`` words each one).
+
+    ``keep`` columns are carried into every output (the ``embed`` command) and never used as
+    features; ``extra`` are ``module:Class`` transformers added as candidates (``--with``);
+    ``methods`` restricts the candidates to these method names (``--methods``).
+    """
+
+    labels: str | None = None
+    features: tuple[str, ...] = ()
+    drop: tuple[str, ...] = ()
+    keep: tuple[str, ...] = ()
+    scale: str = "none"
+    log1p: bool = False
+    pca_first: int | None = None
+    n_components: int = 2
+    sweep: str = "standard"
+    max_rows: int = MAX_ROWS
+    methods: tuple[str, ...] = ()
+    extra: tuple[str, ...] = ()
 
 
 @dataclass
 class ComparePlan:
     """A comparison ready to run: the suite as a dict, where it goes, what was found.
 
-    ``context`` is what the comparison found in the data (rows, duplicates, neighbour-graph
-    components, subsampling, criteria that cannot be computed); the runner keeps it in the
-    run's settings record, where the recommendation's cautions read it.
+    ``context`` is what the comparison found in the data and chose to do (rows, columns,
+    preprocessing, resampling, candidates, duplicates, graph components, criteria that cannot
+    be computed); the runner keeps it in the run's settings record, where the report and the
+    recommendation read it.
     """
 
     file: Path
     suite: dict
     out_dir: Path
     context: dict
+    options: CompareOptions = field(default_factory=CompareOptions)
     plugins: tuple[str, ...] = ()
     warnings: list[str] = field(default_factory=list)
 
@@ -68,8 +101,8 @@ class ComparePlan:
         return int(self.context["n_samples"])
 
     @property
-    def subsample(self) -> int | None:
-        return self.context.get("subsample")
+    def resample_size(self) -> int:
+        return int(self.context["resample_size"])
 
 
 def default_out_dir(path: str | Path) -> Path:
@@ -87,13 +120,7 @@ def _points(table: dict) -> int:
     return int(np.prod(sizes)) if sizes else 1
 
 
-def neighbour_counts(n: int, wanted: tuple[int, ...] = NEIGHBOURS) -> list[int]:
-    """The neighbour counts to sweep, capped at ``n - 2`` so every graph method can run."""
-    cap = max(1, n - 2)
-    return sorted({min(k, cap) for k in wanted})
-
-
-def criterion_ks(n: int, wanted: tuple[int, ...] = NEIGHBOURS) -> list[int]:
+def criterion_ks(n: int, wanted: tuple[int, ...] = _CRITERION_KS) -> list[int]:
     """K values for the neighbourhood criteria: trustworthiness needs K < n / 2."""
     cap = max(1, (n - 1) // 2 - 1)
     return sorted({min(k, cap) for k in wanted})
@@ -137,143 +164,139 @@ def graph_components(X: np.ndarray, ks: list[int]) -> dict[int, int]:
     return out
 
 
-def _round(value: float) -> float:
-    return float(f"{value:.3g}")
-
-
-def _method_tables(
-    scale: float, ks: list[int], plugin_names: list[str], *, quick: bool
-) -> list[dict]:
-    numbers = [_round(m * scale) for m in (QUICK_SCALES if quick else SCALES)]
-    bandwidths = [*RULES, *dict.fromkeys(numbers)]
-    if quick:
-        # Just enough to show each method and the rules: the kernel-graph sweep is left out.
-        return [
-            {"name": "pca"},
-            {"name": "classical_mds"},
-            {"name": "kernel_pca", "label": "kernel_pca", "grid": {"bandwidth": bandwidths}},
-            {
-                "name": "laplacian_eigenmaps",
-                "label": "laplacian_eigenmaps",
-                "grid": {"n_neighbors": ks},
-            },
-            {
-                "name": "diffusion_maps",
-                "label": "diffusion_maps",
-                "grid": {"bandwidth": [*RULES[:2], numbers[0]]},
-            },
-            *({"name": name} for name in plugin_names),
-        ]
-    # A label equal to the name makes every display label "name(swept=value)", the default
-    # values included, so the table and the sensitivity check see each bandwidth.
-    tables: list[dict] = [
-        {"name": "pca"},
-        {"name": "classical_mds"},
-        {
-            "name": "kernel_pca",
-            "label": "kernel_pca",
-            "kernel": "rbf",
-            "grid": {"bandwidth": bandwidths},
-        },
-        {
-            "name": "laplacian_eigenmaps",
-            "label": "laplacian_eigenmaps",
-            "grid": {"n_neighbors": ks},
-        },
-        {"name": "diffusion_maps", "label": "diffusion_maps", "grid": {"bandwidth": bandwidths}},
-        {
-            "name": "diffusion_maps",
-            "label": "diffusion_maps",
-            "bandwidth": "median",
-            "grid": {"n_neighbors": ks},
-        },
-    ]
-    tables += [{"name": name} for name in plugin_names]
-    return tables
-
-
-def _dataset_tables(spec: dict, label: str, n: int, max_rows: int, repeats: int) -> list[dict]:
-    if n <= max_rows:
-        return [{**spec, "label": label}]
-    return [
-        {
-            **spec,
-            "subsample": max_rows,
-            "subsample_seed": s,
-            "label": f"{label} (subsample {s + 1} of {repeats})",
-        }
-        for s in range(repeats)
-    ]
-
-
 def _missing_criteria(has_labels: bool) -> dict[str, str]:
     from lowdim.metrics import get_metric, metric_names
 
     out = {}
     for name in metric_names():
-        needs = getattr(get_metric(name), "needs", None) or ()
-        needs = (needs,) if isinstance(needs, str) else tuple(needs)
-        if "labels" in needs and not has_labels:
+        needs = get_metric(name).needs
+        if needs == "labels" and not has_labels:
             out[name] = "they need class labels: pass --labels COLUMN"
-        elif "truth" in needs:
+        elif needs == "truth":
             out[name] = "they need ground-truth coordinates, which a data file does not have"
     return out
 
 
+def _check_options(options: CompareOptions) -> None:
+    if options.sweep not in SWEEPS:
+        raise InputError(f"unknown sweep {options.sweep!r}; choose one of {', '.join(SWEEPS)}")
+    max_rows = options.max_rows
+    if isinstance(max_rows, bool) or not isinstance(max_rows, int) or max_rows < 10:
+        raise InputError(f"--max-rows must be an integer of at least 10, got {max_rows!r}")
+    if options.scale not in SCALES:
+        raise InputError(
+            f"--scale must be one of {', '.join(SCALES)}, got {options.scale!r}; e.g. "
+            "--scale standard"
+        )
+    for name, value, low in (
+        ("--pca-first", options.pca_first, 2),
+        ("--n-components", options.n_components, 1),
+    ):
+        if value is None:
+            continue
+        if isinstance(value, bool) or not isinstance(value, int) or value < low:
+            raise InputError(f"{name} must be an integer of at least {low}, got {value!r}")
+    both = set(options.keep) & set(options.features)
+    if both:
+        raise InputError(
+            f"--keep and --features both name {', '.join(sorted(both))}; a kept column is "
+            "carried into the output and never used as a feature"
+        )
+
+
+def _spec(path: Path, options: CompareOptions, *, preprocessing: bool) -> dict[str, Any]:
+    """The file's dataset spec: ``--keep`` columns are left out of the features like
+    ``--drop`` ones (the ``embed`` command carries them into its output)."""
+    spec: dict[str, Any] = {"file": str(path.resolve())}
+    if options.labels:
+        spec["labels"] = options.labels
+    if options.features:
+        spec["features"] = list(options.features)
+    drop = list(dict.fromkeys([*options.drop, *options.keep]))
+    if drop:
+        spec["drop"] = drop
+    if preprocessing:
+        if options.scale != "none":
+            spec["scale"] = options.scale
+        if options.log1p:
+            spec["log1p"] = True
+        if options.pca_first is not None:
+            spec["pca_first"] = options.pca_first
+    return spec
+
+
+def _load(spec: dict) -> tuple[Any, list[str]]:
+    from lowdim import datasets
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        dataset = datasets.load(spec)
+    return dataset, [" ".join(str(w.message).split()) for w in caught]
+
+
+def _candidates(
+    options: CompareOptions, median: float, n: int, plugin_names: list[str]
+) -> tuple[list[dict], list[tuple[str, str]]]:
+    """The sweep's tables, the plugins' and the ``--with`` imports, then ``--methods``."""
+    tables = method_tables(options.sweep, median, n)
+    left_out: list[tuple[str, str]] = []
+    tables += [{"name": name} for name in plugin_names]
+    for target in options.extra:
+        if ":" not in target:
+            raise InputError(
+                f"--with {target!r} must name a class as module:Class, e.g. "
+                "--with sklearn.manifold:Isomap"
+            )
+        tables.append({"import": target, "label": target.rpartition(":")[2]})
+    return select_methods(tables, options.methods), left_out
+
+
 def plan_comparison(
     path: str | Path,
+    options: CompareOptions | None = None,
     *,
-    labels: str | None = None,
-    drop: list[str] | tuple[str, ...] = (),
     plugins: list[str] | tuple[str, ...] = (),
     out_dir: str | Path | None = None,
-    quick: bool = False,
-    max_rows: int = MAX_ROWS,
 ) -> ComparePlan:
-    """Read ``path``, look at the data and build the comparison suite.
+    """Read ``path``, look at its columns and rows, and build the comparison suite.
 
     Parameters
     ----------
     path : path
         The data file (any format :func:`lowdim.datasets.load` reads).
-    labels, drop : optional
-        A label column, and columns to leave out.
+    options : CompareOptions, optional
+        Columns, preprocessing, sweep, candidates.
     plugins : sequence of paths
         Plugin files (already loaded); each method they register joins the comparison.
     out_dir : path, optional
         Results folder; default :func:`default_out_dir`.
-    quick : bool, default=False
-        A smaller sweep for a first look: 2 seeds, one fixed bandwidth beside the rules for
-        kernel PCA, 10 neighbours, two rules and the number for diffusion maps.
-    max_rows : int, default=3000
-        Larger files are compared on 3 random subsamples of this many rows.
 
     Returns
     -------
     ComparePlan
     """
-    from lowdim import datasets
     from lowdim.methods import load_plugin
 
-    if isinstance(max_rows, bool) or not isinstance(max_rows, int) or max_rows < 10:
-        raise InputError(f"--max-rows must be an integer of at least 10, got {max_rows!r}")
+    options = options or CompareOptions()
+    _check_options(options)
     path = Path(path)
-    spec: dict[str, Any] = {"file": str(path.resolve())}
-    if labels:
-        spec["labels"] = labels
-    if drop:
-        spec["drop"] = list(drop)
     if not path.exists():
         raise InputError(f"data file {str(path)!r} not found; give the path to a data file")
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        dataset = datasets.load(spec)
-    notes = [" ".join(str(w.message).split()) for w in caught]
+    raw, _ = _load(_spec(path, options, preprocessing=False))
+    dataset, notes = _load(_spec(path, options, preprocessing=True))
+    if raw.n_features < 2:
+        kept = ", ".join(repr(c) for c in raw.meta.get("columns", []))
+        raise InputError(
+            f"the data file {str(path)!r} has one feature column ({kept}) once the label, "
+            "dropped, kept and constant columns are set aside; comparing methods needs at least "
+            "two, since from one column every method can only return its order; check "
+            "--labels, --drop and --keep"
+        )
     X = dataset.X
     n = dataset.n_samples
-    if n < 4:
+    if n < 8:
         raise InputError(
-            f"the data file {str(path)!r} has {n} rows; a comparison needs at least 4 (and "
+            f"the data file {str(path)!r} has {n} rows; a comparison needs at least 8 (and "
             "some dozens to mean much)"
         )
     unique = np.unique(X, axis=0).shape[0]
@@ -282,33 +305,74 @@ def plan_comparison(
             f"every row of {str(path)!r} is the same point, so there is no structure to "
             "embed; check the file and the dropped columns"
         )
-    n_used = min(n, max_rows)
+    if options.n_components >= n:
+        raise InputError(f"--n-components {options.n_components} must be below the {n} rows")
+    findings = column_findings(
+        raw.X,
+        raw.meta.get("columns", []),
+        dropped=raw.meta.get("dropped_columns", []),
+        scale=options.scale,
+        log1p=options.log1p,
+    )
+    size = max(4, min(int(round(FRACTION * n)), options.max_rows))
+    repeats = RESAMPLES[options.sweep]
     rng = np.random.default_rng(0)
-    sample = X if n <= max_rows else X[rng.choice(n, max_rows, replace=False)]
-    ks = neighbour_counts(n_used, QUICK_NEIGHBOURS if quick else NEIGHBOURS)
-    metric_ks = criterion_ks(n_used, QUICK_NEIGHBOURS if quick else NEIGHBOURS)
+    sample = X if n <= size else X[np.sort(rng.choice(n, size, replace=False))]
+    median = median_distance(sample)
     plugin_names = sorted({name for p in plugins for name in load_plugin(p)})
-    repeats = 2 if quick else 3
+    methods, left_out = _candidates(options, median, size, plugin_names)
+    spec = _spec(path, options, preprocessing=True)
+    datasets = [
+        {
+            **spec,
+            "subsample": size,
+            "subsample_seed": s,
+            "label": f"{path.stem} (resample {s + 1} of {repeats})",
+        }
+        for s in range(repeats)
+    ]
     suite = {
         "suite": {
             "name": f"compare-{_safe_name(path.stem)}",
-            "n_components": 2,
-            # Subsamples vary the data, so one method seed each is enough there.
-            "seeds": [0] if n > max_rows else list(QUICK_SEEDS if quick else SEEDS),
-            "neighbors": metric_ks,
+            "n_components": options.n_components,
+            "seeds": list(_SEEDS[options.sweep]),
+            "neighbors": criterion_ks(size),
             "description": f"lowdim compare on {path.name}",
         },
-        "datasets": _dataset_tables(spec, path.stem, n, max_rows, repeats),
-        "methods": _method_tables(median_distance(sample), ks, plugin_names, quick=quick),
+        "datasets": datasets,
+        "methods": methods,
     }
+    families = list(dict.fromkeys(str(t.get("name") or t.get("import")) for t in methods))
     context = {
         "file": path.name,
+        "path": str(path.resolve()),
         "n_samples": n,
+        "n_features": int(raw.n_features),
+        "columns": list(raw.meta.get("columns", [])),
+        "findings": findings,
+        "options": {
+            "labels": options.labels,
+            "features": list(options.features),
+            "drop": list(options.drop),
+            "keep": list(options.keep),
+            "scale": options.scale,
+            "log1p": options.log1p,
+            "pca_first": options.pca_first,
+            "n_components": options.n_components,
+        },
+        "sweep": options.sweep,
+        "resamples": repeats,
+        "resample_size": size,
+        "fraction": FRACTION,
+        "seeds": list(_SEEDS[options.sweep]),
+        "median_distance": median,
+        "candidates": families,
+        "left_out": [list(item) for item in left_out],
         "n_duplicates": n - unique,
         "components": {
-            str(k): c for k, c in graph_components(sample, neighbour_counts(n_used)).items()
+            str(k): c
+            for k, c in graph_components(sample, neighbour_grid("standard", size)).items()
         },
-        "subsample": max_rows if n > max_rows else None,
         "missing": _missing_criteria(dataset.labels is not None),
     }
     return ComparePlan(
@@ -316,14 +380,15 @@ def plan_comparison(
         suite=suite,
         out_dir=Path(out_dir) if out_dir else default_out_dir(path),
         context=context,
+        options=options,
         plugins=tuple(plugins),
         warnings=notes,
     )
 
 
 def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -> Any:
-    """Run the plan's suite into its folder, its context kept in the settings record; return
-    the runner's summary."""
+    """Run the plan's suite into its folder, its context kept in the settings record, the
+    resamples as the blocks of the tests; return the runner's summary."""
     from lowdim.run.runner import run_suite
     from lowdim.run.suites import suite_from_dict
 
@@ -335,4 +400,5 @@ def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -
         quiet=quiet,
         plugins=plan.plugins,
         context=plan.context,
+        blocks="resamples",
     )

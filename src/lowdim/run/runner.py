@@ -192,6 +192,7 @@ def run_suite(
     command: str | None = None,
     context: dict | None = None,
     blocks: str = "datasets",
+    kind: str = "suite",
 ) -> RunSummary:
     """Run every job of ``suite`` not yet in ``out_dir``'s store, record it, export the scores.
 
@@ -222,6 +223,8 @@ def run_suite(
         What a comparison found in its data, kept in the run's settings record.
     blocks : {"datasets", "resamples"}, default="datasets"
         What the blocks of the run's tests are (see :mod:`lowdim.run.settings`).
+    kind : {"suite", "confirmation"}, default="suite"
+        A confirmation run follows a comparison (:mod:`lowdim.run.confirm`).
 
     Returns
     -------
@@ -248,6 +251,7 @@ def run_suite(
             ),
             settings=settings.to_json(),
             planned=[(j.job_id, j.dataset_label, j.method_label, j.seed) for j in jobs],
+            kind=kind,
         )
         log.info(
             "%s: %d jobs, %d to run, %d already finished",

@@ -21,7 +21,7 @@ record and the ``planned`` table are additions)::
          data_fingerprint, colour)
     scores(job_id, metric, k, value, PRIMARY KEY (job_id, metric, k))
     runs(run_id PRIMARY KEY, command, suite_name, suite_path, suite_text, environment,
-         started, finished, settings)
+         started, finished, settings, kind)
     planned(run_id, job_id, dataset_label, method_label, seed, PRIMARY KEY (run_id, job_id))
 """
 
@@ -113,7 +113,8 @@ CREATE TABLE IF NOT EXISTS runs (
     environment TEXT,
     started TEXT,
     finished TEXT,
-    settings TEXT
+    settings TEXT,
+    kind TEXT
 );
 CREATE TABLE IF NOT EXISTS planned (
     run_id INTEGER NOT NULL,
@@ -133,7 +134,7 @@ def _now() -> str:
 # Columns added after the first stores were written: an older store gains them on opening.
 _ADDED_COLUMNS = {
     "jobs": (("data_fingerprint", "TEXT"), ("colour", "TEXT")),
-    "runs": (("settings", "TEXT"),),
+    "runs": (("settings", "TEXT"), ("kind", "TEXT")),
 }
 
 
@@ -226,9 +227,11 @@ class Store:
         environment: dict,
         settings: str,
         planned: Iterable[tuple[str, str, str, int]] = (),
+        kind: str = "suite",
     ) -> int:
         """Record a run's start, its settings record (JSON) and the jobs it plans; return its
-        ``run_id``."""
+        ``run_id``. ``kind`` is ``"suite"``, or ``"confirmation"`` for the whole-file run that
+        follows a comparison (its verdict stays the main run's)."""
         db = self.db
         db.execute("BEGIN IMMEDIATE")
         try:
