@@ -36,7 +36,7 @@ from lowdim.analysis.ranking import (
 from lowdim.analysis.results import Results, criterion_table, load_results
 from lowdim.analysis.stability import seed_stability
 from lowdim.errors import InputError, suggestion
-from lowdim.run.settings import OVERALL, Settings
+from lowdim.run.settings import OVERALL, Settings, criterion_key
 
 __all__ = ["Pair", "CriterionTests", "Analysis", "analyse", "analyse_folder"]
 
@@ -84,6 +84,41 @@ class CriterionTests:
             if p.other == other:
                 return p
         return None
+
+
+@dataclass(frozen=True)
+class Confirmation:
+    """The leading configurations refitted on the whole file (or its largest sample).
+
+    Attributes
+    ----------
+    dataset : str
+        The confirmation's dataset label (it says how many rows).
+    rows : int
+        Rows the configurations were fitted on.
+    resample_order, whole_order : list of str
+        The confirmed configurations in the resamples' order and in the whole file's (by the
+        same selection, then the same tie-break rule).
+    values : DataFrame
+        Configuration x headline criterion: the whole-file values.
+    disparity : dict
+        Configuration -> Procrustes disparity between its fit on the first resample extended
+        to every row and its whole-file fit (for configurations with a ``transform``).
+    failures : list of (configuration, status, message)
+    """
+
+    dataset: str
+    rows: int
+    resample_order: list[str]
+    whole_order: list[str]
+    values: pd.DataFrame
+    disparity: dict[str, float]
+    failures: list[tuple[str, str, str]]
+
+    @property
+    def held(self) -> bool:
+        """Whether the whole file orders the confirmed configurations as the resamples did."""
+        return self.whole_order == self.resample_order
 
 
 @dataclass
@@ -137,6 +172,15 @@ class Analysis:
     rnx: pd.DataFrame
     fraction: float = BREAKDOWN_FRACTION
     notes: list[str] = field(default_factory=list)
+    confirmation: Confirmation | None = None
+
+    def spec_of(self, method: str) -> dict:
+        """The method spec a configuration ran with: ``name`` (or ``import``) and parameters."""
+        jobs = self.results.jobs
+        row = jobs[jobs["config"] == method].iloc[0]
+        family = str(row["family"])
+        key = "import" if ":" in family else "name"
+        return {key: family, **row["config_spec"]}
 
     @property
     def effect(self) -> str:
@@ -391,6 +435,72 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
         scaling=points,
         scaling_fits=fits,
         rnx=rnx_curves(every_score),
+        confirmation=_confirmation(results, order, settings, families),
+    )
+
+
+EXTENDED = ", extended]"
+"""The end of the label of a confirmation job that extends a subsample fit to every row."""
+
+
+def _confirmation(
+    results: Results, order: list[str], settings: Settings, families: dict[str, str]
+) -> Confirmation | None:
+    """Compare the whole-file fits of the confirmation run with the resamples' order."""
+    from scipy.spatial import procrustes
+
+    jobs = results.confirmation
+    if jobs.empty:
+        return None
+    base = jobs[~jobs["config"].str.endswith(EXTENDED)]
+    ok = base[base["status"] == "ok"]
+    failures = [
+        (str(r.config), str(r.status), " ".join(str(r.error or "").split()))
+        for r in jobs[jobs["status"] != "ok"].itertuples()
+    ]
+    scores = results.confirmation_scores.merge(ok[["job_id", "config"]], on="job_id")
+    scores["criterion"] = [
+        criterion_key(m, k) for m, k in zip(scores["metric"], scores["k"], strict=True)
+    ]
+    values = scores.pivot_table(
+        index="config", columns="criterion", values="value", aggfunc="mean"
+    )
+    configs = [m for m in order if m in set(base["config"])]
+    keys = [k for k in settings.headline if k in values.columns]
+    wide = {k: values[[k]].T.rename(index={k: "whole"}) for k in keys}
+    ranks = [rank_wide(wide[k], settings.directions[k], configs) for k in keys]
+    if ranks and settings.selection in keys:
+        mean_rank = ranks[keys.index(settings.selection)].iloc[0]
+    elif ranks:
+        mean_rank = pd.concat(ranks).mean(axis=0)
+    else:
+        mean_rank = pd.Series(math.inf, index=configs)
+    whole_order = ordered(
+        mean_rank.reindex(configs).fillna(math.inf), families, settings.simpler_first
+    )
+    disparity = {}
+    for config in configs:
+        whole = ok.loc[ok["config"] == config, "job_id"]
+        extended = jobs[
+            jobs["config"].str.startswith(f"{config} [fitted on") & (jobs["status"] == "ok")
+        ]
+        if extended.empty or whole.empty:
+            continue
+        a = results.embedding_path(whole.iloc[0])
+        b = results.embedding_path(extended["job_id"].iloc[0])
+        if a.is_file() and b.is_file():
+            try:
+                disparity[config] = float(procrustes(np.load(a), np.load(b))[2])
+            except ValueError:  # a constant embedding has no shape to align
+                disparity[config] = math.nan
+    return Confirmation(
+        dataset=str(base["data"].iloc[0]) if len(base) else "",
+        rows=int(ok["n_samples"].max()) if len(ok) else 0,
+        resample_order=configs,
+        whole_order=whole_order,
+        values=values.reindex(index=configs, columns=keys),
+        disparity=disparity,
+        failures=failures,
     )
 
 

@@ -320,3 +320,80 @@ def _stability_lines(stability: pd.DataFrame, configs: list[str]) -> list[str]:
         f"{worst['disparity']:.3g} ({worst['method']} on {worst['dataset']}; 0 = identical up "
         "to rotation and scale, 1 = unrelated)."
     ]
+
+
+def consistency(an: Analysis) -> str | None:
+    """How often each configuration ranks first across the blocks, and the range of the
+    winner's lead over the runner-up there (its own interval, in the effect's units)."""
+    n = len(an.blocks)
+    if an.winner is None or n < 2:
+        return None
+    share = an.first_share()
+    counts = {m: int(round(s * n)) for m, s in share.items() if s > 0}
+    what = blocks_phrase(an)
+    text = (
+        f"{an.winner} ranks first (or ties for first) in {counts.get(an.winner, 0)} of the {what}"
+    )
+    others = [f"{m} in {c}" for m, c in counts.items() if m != an.winner]
+    if others:
+        text += f"; {_names(others)}"
+    lead = an.lead()
+    if len(lead) >= 2 and an.runner_up is not None:
+        title = criterion_title(an.effect)
+        text += (
+            f". Its lead over {an.runner_up} on {title} ranges from {fmt.number(lead.min())} to "
+            f"{fmt.number(lead.max())} across them (median {fmt.number(float(lead.median()))})"
+        )
+    return text + "."
+
+
+def confirmation_reading(an: Analysis) -> list[str]:
+    """What the refit of the leading settings on the whole file says."""
+    c = an.confirmation
+    if c is None:
+        return []
+    out = []
+    configs = len(c.resample_order)
+    if c.held:
+        out.append(
+            f"Refitted on {c.rows} rows ({c.dataset}), the {configs} leading settings keep the "
+            f"order of the resamples: {' > '.join(c.whole_order)}."
+        )
+    else:
+        first = (
+            "the winner stays first"
+            if c.whole_order[:1] == c.resample_order[:1]
+            else f"{c.whole_order[0]} comes first there"
+        )
+        out.append(
+            f"Refitted on {c.rows} rows ({c.dataset}), the order of the {configs} leading "
+            f"settings changes ({first}): resamples {' > '.join(c.resample_order)}; whole file "
+            f"{' > '.join(c.whole_order)}."
+        )
+    if c.disparity:
+        parts = [f"{m} {d:.3g}" for m, d in c.disparity.items()]
+        out.append(
+            "Fitted on the first resample's rows and extended to every row with its own "
+            "transform, each setting lies at this Procrustes disparity from its whole-file fit "
+            f"(0 = the same up to rotation and scale, 1 = unrelated): {'; '.join(parts)}."
+        )
+    if c.failures:
+        shown = "; ".join(f"{m} ({s}: {e})" for m, s, e in c.failures[:3])
+        out.append(f"{len(c.failures)} confirmation job(s) did not finish: {shown}.")
+    return out
+
+
+def candidates_reading(an: Analysis) -> str | None:
+    """The candidate set a comparison ranked, and what it left out and why."""
+    context = an.settings.context
+    families = context.get("candidates")
+    if not families:
+        return None
+    text = (
+        f"Candidates: {len(an.order)} settings of {len(families)} methods "
+        f"({', '.join(families)}; the {context.get('sweep', 'standard')} sweep)"
+    )
+    left = context.get("left_out") or []
+    if left:
+        text += "; left out: " + "; ".join(f"{name} ({why})" for name, why in left)
+    return text + "."

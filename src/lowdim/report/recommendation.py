@@ -9,16 +9,25 @@ data calls for caution (from the settings record's ``context``).
 
 from __future__ import annotations
 
+import shlex
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 
 from lowdim.analysis.engine import Analysis
 from lowdim.analysis.ranking import over_blocks
 from lowdim.report import format as fmt
-from lowdim.report.narrative import strength, verdict
+from lowdim.report.narrative import (
+    candidates_reading,
+    confirmation_reading,
+    consistency,
+    strength,
+    verdict,
+)
 from lowdim.report.views import criterion_title
 
-__all__ = ["TOLERANCE", "SENSITIVITY", "recommendation"]
+__all__ = ["TOLERANCE", "SENSITIVITY", "recommendation", "embed_command"]
 
 TOLERANCE = 0.01
 """Two values closer than this (criteria in [0, 1]) are called level whatever the spread."""
@@ -219,11 +228,15 @@ def _cautions(an: Analysis, values: pd.DataFrame) -> list[str]:
             "No seed or sample changed any score (the methods are deterministic on these rows), "
             "so every spread is 0 and says nothing about chance."
         )
-    if context.get("subsample"):
+    if context.get("resamples"):
         lines.append(
-            f"The file has {context.get('n_samples')} rows; each run used a random subsample of "
-            f"{context['subsample']}, and the blocks of the tests are those subsamples."
+            f"The blocks are {context['resamples']} random subsamples of "
+            f"{context['resample_size']} of the file's {context.get('n_samples')} rows, drawn "
+            "without replacement; the "
+            "spreads and the tests speak of the variation between them."
         )
+    for finding in context.get("findings") or []:
+        lines.append(finding)
     missing = context.get("missing") or {}
     if missing:
         by_reason: dict[str, list[str]] = {}
@@ -240,7 +253,49 @@ def recommendation(an: Analysis) -> list[str]:
         return [verdict(an)] + _cautions(an, pd.DataFrame(columns=["mean", "spread"]))
     values = _values(an)
     lines = [f"Use {an.winner}. " + verdict(an), strength(an)]
-    for sentence in (_versus(an, values), _pca(an, values), _disagreement(an, values)):
+    for sentence in (
+        consistency(an),
+        _versus(an, values),
+        _pca(an, values),
+        _disagreement(an, values),
+    ):
         if sentence:
             lines.append(sentence)
-    return lines + _cautions(an, values)
+    lines += confirmation_reading(an)
+    lines += _cautions(an, values)
+    candidates = candidates_reading(an)
+    return lines + ([candidates] if candidates else [])
+
+
+def embed_command(an: Analysis, out: str | None = None) -> str | None:
+    """The ``lowdim embed`` command that embeds the whole file with the winner: the same
+    columns, preprocessing, settings and seed (``embed`` fixes ``random_state`` to 0, the
+    comparison's seed). None when the winner is not a registered method or there is no file."""
+    context = an.settings.context
+    if an.winner is None or "path" not in context:
+        return None
+    spec = an.spec_of(an.winner)
+    name = spec.pop("name", None)
+    if name is None:
+        return None
+    options = context.get("options", {})
+    parts = ["lowdim", "embed", context["path"], "--method", name]
+    for key, value in spec.items():
+        if key == "random_state":
+            continue
+        parts += ["--set", f"{key}={value}"]
+    if options.get("labels"):
+        parts += ["--labels", options["labels"]]
+    for flag, key in (("--features", "features"), ("--drop", "drop"), ("--keep", "keep")):
+        for column in options.get(key) or []:
+            parts += [flag, column]
+    if options.get("scale", "none") != "none":
+        parts += ["--scale", options["scale"]]
+    if options.get("log1p"):
+        parts.append("--log1p")
+    if options.get("pca_first") is not None:
+        parts += ["--pca-first", str(options["pca_first"])]
+    parts += ["--n-components", str(options.get("n_components", 2))]
+    stem = Path(context["path"]).stem
+    parts += ["--out", out or f"{stem}-{name}.csv"]
+    return shlex.join(parts)

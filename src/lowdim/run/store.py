@@ -237,7 +237,7 @@ class Store:
         try:
             cur = db.execute(
                 "INSERT INTO runs (command, suite_name, suite_path, suite_text, environment, "
-                "started, settings) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                "started, settings, kind) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
                 (
                     command,
                     suite_name,
@@ -246,6 +246,7 @@ class Store:
                     _json(environment),
                     _now(),
                     settings,
+                    kind,
                 ),
             )
             run_id = int(cur.lastrowid)
