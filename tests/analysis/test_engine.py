@@ -221,3 +221,29 @@ def test_breakdown_curves_need_two_values_along_the_axis(tmp_path: Path, write_s
 def test_a_folder_without_a_store_or_a_record_is_an_input_error(tmp_path: Path) -> None:
     with pytest.raises(InputError, match="no results store"):
         load_results(tmp_path)
+
+
+def test_share_of_firsts_and_the_winners_lead_per_block(tmp_path: Path, write_suite_store) -> None:
+    # By hand: trustworthiness by dataset (rnx_auc 0.3 below):
+    #   swiss_roll: pca 0.70, LE 0.90, DM 0.80   -> LE first, lead over DM +0.10
+    #   s_curve:    pca 0.70, LE 0.90, DM 0.85   -> LE first, lead +0.05
+    #   two_moons:  pca 0.70, LE 0.80, DM 0.90   -> DM first, lead -0.10
+    table = {
+        "swiss_roll": {"pca": 0.7, "laplacian_eigenmaps": 0.9, "diffusion_maps": 0.8},
+        "s_curve": {"pca": 0.7, "laplacian_eigenmaps": 0.9, "diffusion_maps": 0.85},
+        "two_moons": {"pca": 0.7, "laplacian_eigenmaps": 0.8, "diffusion_maps": 0.9},
+    }
+
+    def score(job):
+        q = table[job.dataset_spec["name"]][job.method_spec["name"]]
+        return {("trustworthiness", 10): q, ("rnx_auc", 0): q - 0.3}
+
+    data = [*TWO_DATA, {"name": "two_moons", "n": 60}]
+    an = analyse_folder(write_suite_store(tmp_path / "c", suite(data, THREE), score))
+    le, dm = "laplacian_eigenmaps(n_neighbors=10)", "diffusion_maps(n_neighbors=10)"
+    assert an.order[:2] == [le, dm]
+    share = an.first_share()
+    assert share[le] == pytest.approx(2 / 3) and share[dm] == pytest.approx(1 / 3)
+    assert share["pca"] == 0.0
+    assert an.effect == "rnx_auc"  # the first headline criterion, in its own units
+    np.testing.assert_allclose(sorted(an.lead()), [-0.10, 0.05, 0.10], atol=1e-12)

@@ -25,6 +25,9 @@ from lowdim.analysis.ranking import natural_key
 from lowdim.report import format as fmt
 from lowdim.report.narrative import (
     blocks_phrase,
+    candidates_reading,
+    confirmation_reading,
+    consistency,
     effect_criterion,
     method_profiles,
     statistics_reading,
@@ -298,7 +301,11 @@ def render_report(
         "strength": strength(an),
         "caution": CAUTION,
         "figures": fig,
-        "board": _table(overall_table(an)),
+        "board": _table(overall_table(an, values=an.settings.blocks == "resamples")),
+        "readings": [
+            s for s in (consistency(an), *confirmation_reading(an), candidates_reading(an)) if s
+        ],
+        "findings": list(an.settings.context.get("findings") or []),
         "datasets": [_table(t) for t in dataset_tables(an)],
         "tuned": [_table(t) for t in tuned_tables(an)],
         "tuned_title": criterion_title(an.selection),

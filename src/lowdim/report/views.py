@@ -58,6 +58,9 @@ def overall_table(an: Analysis, *, values: bool = False, compact: bool = False) 
     keys = an.headline
     header = ["place", "configuration", _selection_header(an)]
     header += [(k if compact else criterion_title(k)) + _arrow(an, k) for k in keys]
+    if values:
+        header.append("first in")
+        firsts = (an.first_share() * len(an.blocks)).round().astype(int)
     table = Table(title="Leaderboard", header=header)
     mean_ranks = {k: an.ranks[k].mean(axis=0) for k in keys}
     blocks = over_blocks(an.summary).set_index(["method", "criterion"])
@@ -81,6 +84,8 @@ def overall_table(an: Analysis, *, values: bool = False, compact: bool = False) 
             else:
                 r = mean_ranks[k].get(m, math.nan)
                 row.append(_cell(fmt.rank(r), r == mean_ranks[k].min()))
+        if values:
+            row.append(_cell(f"{firsts.get(m, 0)} of {len(an.blocks)}"))
         table.rows.append(row)
     n = len(an.blocks)
     what = "resamples of the file" if an.settings.blocks == "resamples" else "datasets"
@@ -88,7 +93,8 @@ def overall_table(an: Analysis, *, values: bool = False, compact: bool = False) 
         table.note = (
             f"Mean ± spread over {n} {what} (the spread is the standard deviation across "
             "them; with one, across seeds). Best value of each column in bold; ↓ lower is "
-            "better."
+            f"better; 'first in' counts the {what} where the setting ranks first on the "
+            "selection (ties included)."
         )
     else:
         table.note = (

@@ -196,6 +196,12 @@ def _check_options(options: CompareOptions) -> None:
             continue
         if isinstance(value, bool) or not isinstance(value, int) or value < low:
             raise InputError(f"{name} must be an integer of at least {low}, got {value!r}")
+    for target in options.extra:
+        if ":" not in target:
+            raise InputError(
+                f"--with {target!r} must name a class as module:Class, e.g. "
+                "--with sklearn.manifold:Isomap"
+            )
     both = set(options.keep) & set(options.features)
     if both:
         raise InputError(
@@ -242,11 +248,6 @@ def _candidates(
     left_out: list[tuple[str, str]] = []
     tables += [{"name": name} for name in plugin_names]
     for target in options.extra:
-        if ":" not in target:
-            raise InputError(
-                f"--with {target!r} must name a class as module:Class, e.g. "
-                "--with sklearn.manifold:Isomap"
-            )
         tables.append({"import": target, "label": target.rpartition(":")[2]})
     return select_methods(tables, options.methods), left_out
 
