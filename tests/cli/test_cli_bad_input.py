@@ -152,6 +152,22 @@ def test_suite_with_an_unknown_key(folder, capsys):
     assert left_behind(folder) == []
 
 
+@pytest.mark.parametrize("old_name", ["helix", "twin_peaks", "broken_swiss_roll"])
+def test_a_retired_family_name_is_an_unknown_dataset(old_name, folder, capsys):
+    # These families are called coiled_ring, peaked_sheet and swiss_gap; no alias is kept.
+    suite = folder / "retired.toml"
+    suite.write_text(
+        f'[suite]\nname = "reef"\n[[datasets]]\nname = "{old_name}"\n[[methods]]\nname = "pca"\n'
+    )
+    args = ["run", str(suite), "--out", str(folder / "out" / "r")]
+    status, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, f"unknown dataset {old_name!r}")
+    assert "the known datasets are" in err
+    for family in ["coiled_ring", "peaked_sheet", "swiss_gap", "swiss_roll"]:
+        assert family in err
+    assert left_behind(folder) == []
+
+
 def test_internal_error_is_called_a_defect_with_a_log(reef, folder, capsys, monkeypatch):
     def broken_writer(*args, **kwargs):
         raise RuntimeError("the writer lost its place")

@@ -11,11 +11,11 @@ from sklearn.neighbors import kneighbors_graph
 
 from lowdim.datasets import dataset_names, describe, load
 from lowdim.datasets.manifolds import (
-    helix_map,
+    coiled_ring_map,
+    peaked_sheet_map,
     s_curve_map,
     swiss_roll_arclength,
     swiss_roll_map,
-    twin_peaks_map,
 )
 from lowdim.errors import InputError
 
@@ -35,9 +35,9 @@ def test_all_eleven_families_are_registered():
             "s_curve",
             "two_moons",
             "circles",
-            "helix",
-            "twin_peaks",
-            "broken_swiss_roll",
+            "coiled_ring",
+            "peaked_sheet",
+            "swiss_gap",
             "torus",
             "severed_sphere",
             "blobs",
@@ -169,37 +169,37 @@ def test_blobs_follow_make_blobs():
 # --- published recipes where no scikit-learn generator exists
 
 
-def test_broken_swiss_roll_removes_the_band():
+def test_swiss_gap_removes_the_band():
     # TiCC TR 2009-005 App. B: t = (3 pi / 2)(1 + 2p); the gap 0.4 < p < 0.8 matches its figure
     # (REFERENCES.md notes the printed condition is garbled).
-    data = load({"name": "broken_swiss_roll", "n": 3000, "seed": 0})
+    data = load({"name": "swiss_gap", "n": 3000, "seed": 0})
     p = (_roll_t(data.X) / (1.5 * np.pi) - 1) / 2
     assert not np.any((p > 0.4) & (p < 0.8))
     assert_array_equal(data.labels, (p >= 0.4).astype(int))
     # Uniform on what is left: the piece [0.8, 1] holds a third of the points.
     assert abs(np.mean(p >= 0.8) - 1 / 3) < 0.03
-    wider = load({"name": "broken_swiss_roll", "n": 3000, "gap": 0.5, "seed": 0})
+    wider = load({"name": "swiss_gap", "n": 3000, "gap": 0.5, "seed": 0})
     q = (_roll_t(wider.X) / (1.5 * np.pi) - 1) / 2
     assert not np.any((q > 0.4) & (q < 0.9))
 
 
-def test_helix_follows_the_published_formula():
+def test_coiled_ring_follows_the_published_formula():
     # TiCC TR 2009-005 App. B: x = ((2 + cos 8p) cos p, (2 + cos 8p) sin p, sin 8p).
-    data = load({"name": "helix", "n": 500, "seed": 0})
+    data = load({"name": "coiled_ring", "n": 500, "seed": 0})
     p = data.truth[:, 0]
     assert_allclose(np.hypot(data.X[:, 0], data.X[:, 1]), 2 + np.cos(8 * p), atol=1e-12)
     assert_allclose(data.X[:, 2], np.sin(8 * p), atol=1e-12)
-    assert_allclose(helix_map(p), data.X)
+    assert_allclose(coiled_ring_map(p), data.X)
     assert p.min() >= 0 and p.max() <= 2 * np.pi
 
 
-def test_twin_peaks_follow_the_published_formula():
+def test_peaked_sheet_follows_the_published_formula():
     # TiCC TR 2009-005 App. B as corrected in REFERENCES.md: with p, q uniform on [0, 1],
     # x = (1 - 2p, 1 - 2q, sin(pi - 2 pi p) tanh(3 - 6q)).
-    data = load({"name": "twin_peaks", "n": 500, "seed": 0})
+    data = load({"name": "peaked_sheet", "n": 500, "seed": 0})
     p, q = (1 - data.X[:, 0]) / 2, (1 - data.X[:, 1]) / 2
     assert_allclose(data.X[:, 2], np.sin(np.pi - 2 * np.pi * p) * np.tanh(3 - 6 * q), atol=1e-12)
-    assert_allclose(twin_peaks_map(data.truth[:, 0], data.truth[:, 1], 1.0), data.X)
+    assert_allclose(peaked_sheet_map(data.truth[:, 0], data.truth[:, 1], 1.0), data.X)
 
 
 def test_torus_is_uniform_by_area():
@@ -274,7 +274,7 @@ def test_checker_labels_follow_the_generating_parameters():
 
 
 def test_band_labels_on_a_curve():
-    data = load({"name": "helix", "n": 4000, "labels": "bands:4", "seed": 0})
+    data = load({"name": "coiled_ring", "n": 4000, "labels": "bands:4", "seed": 0})
     assert_array_equal(data.labels, np.floor(data.truth[:, 0] / (2 * np.pi) * 4).astype(int))
     assert_allclose(np.bincount(data.labels) / 4000, 0.25, atol=0.03)
 
@@ -282,7 +282,7 @@ def test_band_labels_on_a_curve():
 @pytest.mark.parametrize(
     ("spec", "words"),
     [
-        ({"name": "helix", "labels": "checker:2x2"}, "two intrinsic coordinates"),
+        ({"name": "coiled_ring", "labels": "checker:2x2"}, "two intrinsic coordinates"),
         ({"name": "swiss_roll", "labels": "classes"}, "no natural classes"),
         ({"name": "swiss_roll", "ambient_dim": 2}, r"an int in \[3, inf\), got 2"),
         ({"name": "blobs", "dim": 5, "ambient_dim": 4}, "native dimension 5"),

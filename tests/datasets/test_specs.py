@@ -113,7 +113,7 @@ def test_meta_holds_the_normalised_parameters():
 
 
 def test_describe():
-    info = describe("broken_swiss_roll")
+    info = describe("swiss_gap")
     assert info["parameters"]["gap"] == 0.4 and info["parameters"]["labels"] == "classes"
     assert set(info) >= {"parameters", "source", "citation", "summary", "help"}
     assert "ambient_dim" in describe("swiss_roll")["parameters"]

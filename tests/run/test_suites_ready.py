@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import tomllib
 from pathlib import Path
 
 import pytest
 
 from lowdim.run.runner import run_suite
 from lowdim.run.store import Store
-from lowdim.run.suites import load_suite
+from lowdim.run.suites import load_suite, suite_from_dict
 
 SUITES = Path(__file__).resolve().parents[2] / "suites"
 READY = ["smoke", "quick", "classic", "bandwidth", "stress", "scaling", "replication"]
@@ -44,9 +45,9 @@ def test_replication_suite_follows_the_published_protocol():
     suite = load_suite(SUITES / "replication.toml")
     assert {e.spec["name"] for e in suite.datasets} == {
         "swiss_roll",
-        "helix",
-        "twin_peaks",
-        "broken_swiss_roll",
+        "coiled_ring",
+        "peaked_sheet",
+        "swiss_gap",
     }
     assert {e.spec["n"] for e in suite.datasets} == {5000}
     assert set(suite.metrics) == {"knn_accuracy", "trustworthiness", "continuity"}
@@ -69,3 +70,18 @@ def test_smoke_suite_runs(tmp_path):
     assert len(trust) == len(suite.jobs()) * len(suite.neighbors)
     # trustworthiness lies in [0, 1] for k < n/2 (Venna & Kaski 2001)
     assert all(0.0 <= t <= 1.0 for t in trust)
+
+
+@pytest.mark.parametrize("name", ["classic", "replication"])
+def test_every_dataset_of_a_suite_with_generated_families_runs(name, tmp_path):
+    # Each [[datasets]] table as written (shape, parameters, labels), only smaller, with PCA:
+    # every family the suite names must load, fit and score.
+    data = tomllib.loads((SUITES / f"{name}.toml").read_text())
+    for table in data["datasets"]:
+        if "n" in table:
+            table["n"] = 200
+    data["suite"]["seeds"] = [0]
+    data["methods"] = [{"name": "pca"}]
+    suite = suite_from_dict(data, source=str(SUITES / f"{name}.toml"))
+    summary = run_suite(suite, tmp_path, n_jobs=1, quiet=True)
+    assert summary.counts == {"ok": len(suite.datasets)}

@@ -9,9 +9,9 @@ points on the manifold.
 
 ``truth`` holds isometric coordinates where the surface is developable (arc length along the
 roll and height for the swiss rolls; the S-curve's parameter is already arc length), and the
-generating parameters otherwise (angles on the torus and the sphere, the helix parameter, the
-twin peaks' base plane). ``density`` warps the first generating parameter by the truncated
-exponential law of :func:`lowdim.datasets.lift.warp_uniform`.
+generating parameters otherwise (angles on the torus and the sphere, the coiled ring's
+parameter, the peaked sheet's base plane). ``density`` warps the first generating parameter by
+the truncated exponential law of :func:`lowdim.datasets.lift.warp_uniform`.
 
 References
 ----------
@@ -42,8 +42,8 @@ __all__ = [
     "swiss_roll_map",
     "swiss_roll_arclength",
     "s_curve_map",
-    "helix_map",
-    "twin_peaks_map",
+    "coiled_ring_map",
+    "peaked_sheet_map",
     "torus_map",
     "sphere_map",
 ]
@@ -80,16 +80,20 @@ def s_curve_map(t: np.ndarray, height: np.ndarray) -> np.ndarray:
     return np.column_stack([np.sin(t), height, np.sign(t) * (np.cos(t) - 1.0)])
 
 
-def helix_map(p: np.ndarray) -> np.ndarray:
-    """((2 + cos 8p) cos p, (2 + cos 8p) sin p, sin 8p), the helix of the TiCC TR 2009-005."""
+def coiled_ring_map(p: np.ndarray) -> np.ndarray:
+    """((2 + cos 8p) cos p, (2 + cos 8p) sin p, sin 8p): a ring coiled eight times round a torus.
+
+    The curve of TiCC TR 2009-005, Appendix B.
+    """
     ring = 2.0 + np.cos(8.0 * p)
     return np.column_stack([ring * np.cos(p), ring * np.sin(p), np.sin(8.0 * p)])
 
 
-def twin_peaks_map(x: np.ndarray, y: np.ndarray, height: float) -> np.ndarray:
-    """(x, y, height sin(pi x) tanh(3 y)) on [-1, 1]^2, the twin peaks of the TiCC TR 2009-005.
+def peaked_sheet_map(x: np.ndarray, y: np.ndarray, height: float) -> np.ndarray:
+    """(x, y, height sin(pi x) tanh(3 y)) on [-1, 1]^2: a sheet with a peak and a trough.
 
-    With x = 1 - 2p, y = 1 - 2q this is the report's h sin(pi - 2 pi p) tanh(3 - 6q).
+    The surface of TiCC TR 2009-005, Appendix B: with x = 1 - 2p, y = 1 - 2q this is the
+    report's h sin(pi - 2 pi p) tanh(3 - 6q).
     """
     return np.column_stack([x, y, height * np.sin(np.pi * x) * np.tanh(3.0 * y)])
 
@@ -139,7 +143,7 @@ def _swiss_hole(rng, n, *, density, height, hole):
     return Sample(swiss_roll_map(t, h), _swiss_truth(t, h), np.column_stack([p, q]), None)
 
 
-def _broken_swiss_roll(rng, n, *, density, height, gap):
+def _swiss_gap(rng, n, *, density, height, gap):
     # The band 0.4 < p < 0.4 + gap is removed by squeezing [0, 1] onto what is left, so no
     # rejection is needed; the TR's printed condition is garbled, a gap at (0.4, 0.8) matches
     # its figure (REFERENCES.md).
@@ -158,18 +162,18 @@ def _s_curve(rng, n, *, density, height):
     return Sample(s_curve_map(t, h), np.column_stack([t, h]), np.column_stack([p, q]), None)
 
 
-def _helix(rng, n, *, density):
+def _coiled_ring(rng, n, *, density):
     u = warp_uniform(rng.uniform(size=n), density)
     p = 2.0 * np.pi * u
-    return Sample(helix_map(p), p[:, None], u[:, None], None)
+    return Sample(coiled_ring_map(p), p[:, None], u[:, None], None)
 
 
-def _twin_peaks(rng, n, *, density, height):
+def _peaked_sheet(rng, n, *, density, height):
     p = warp_uniform(rng.uniform(size=n), density)
     q = rng.uniform(size=n)
     x, y = 1.0 - 2.0 * p, 1.0 - 2.0 * q
     return Sample(
-        twin_peaks_map(x, y, height), np.column_stack([x, y]), np.column_stack([p, q]), None
+        peaked_sheet_map(x, y, height), np.column_stack([x, y]), np.column_stack([p, q]), None
     )
 
 
@@ -379,9 +383,9 @@ _add(
     },
 )
 _add(
-    "broken_swiss_roll",
-    _broken_swiss_roll,
-    summary="the swiss roll with a band cut across it (two pieces)",
+    "swiss_gap",
+    _swiss_gap,
+    summary="the swiss roll with a gap cut across it; labels: the two pieces",
     source=_TR,
     citation=_TR,
     native=3,
@@ -407,17 +411,17 @@ _add(
     own={"height": Param(2.0, (Interval(float, 0, None, "neither"),), "height of the sheet")},
 )
 _add(
-    "helix",
-    _helix,
-    summary="a closed curve winding round a torus (1-D in 3-D); truth: its parameter",
+    "coiled_ring",
+    _coiled_ring,
+    summary="a closed curve coiled round a torus (1-D in 3-D); truth: its parameter",
     source=_TR,
     citation=_TR,
     native=3,
     intrinsic=1,
 )
 _add(
-    "twin_peaks",
-    _twin_peaks,
+    "peaked_sheet",
+    _peaked_sheet,
     summary="a sheet with a peak and a trough (2-D in 3-D); truth: the base plane",
     source=_TR,
     citation=_TR,
