@@ -69,3 +69,22 @@ def test_preprocessing_of_generated_data_keeps_truth():
     scaled = load({"name": "swiss_roll", "n": 300, "seed": 0, "scale": "standard"})
     assert_allclose(scaled.X, StandardScaler().fit_transform(plain.X))
     assert_allclose(scaled.truth, plain.truth)
+
+
+@pytest.mark.parametrize("factor", [1e300, 1e-300])
+@pytest.mark.parametrize(
+    "scale, scaler", [("standard", StandardScaler), ("minmax", MinMaxScaler)]
+)
+def test_scaling_is_blind_to_a_huge_or_tiny_factor(factor, scale, scaler):
+    # Exact fact: both scalings are invariant to a positive factor per column, so the result
+    # on X * 1e+-300 (whose squares leave float64) is scikit-learn's scaler applied to X.
+    ours = preprocess(X * factor, {"scale": scale}, "here", COLUMNS)
+    assert_allclose(ours, scaler().fit_transform(X), atol=1e-12)
+
+
+@pytest.mark.parametrize("factor, words", [(1e120, "overflow"), (1e-120, "smallest normal")])
+def test_unscaled_values_beyond_the_limits_are_refused(factor, words):
+    with pytest.raises(InputError, match=f"{words}.*scale the data first"):
+        preprocess(X * factor, {}, "here", COLUMNS)
+    # Common practice puts the data on a unit scale; within [1e-100, 1e100] it is used as is.
+    assert_allclose(preprocess(X * 1e90, {}, "here", COLUMNS), X * 1e90)

@@ -125,6 +125,10 @@ def _check_output(path: Path) -> str:
 
 def _label_values(dataset: Any) -> np.ndarray | None:
     labels = dataset.labels
+    classes = dataset.meta.get("classes") or []
+    if labels is None and dataset.meta.get("labels_unused") and len(classes) == 1:
+        # One class is not used for scoring, but the column still belongs in the output.
+        return np.full(dataset.n_samples, classes[0], dtype=object)
     if labels is None:
         return None
     classes = dataset.meta.get("classes")

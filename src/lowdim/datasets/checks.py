@@ -17,21 +17,33 @@ from lowdim.errors import InputError
 
 __all__ = [
     "DataWarning",
+    "warn_data",
     "check_row_count",
+    "check_unique_names",
     "numeric_matrix",
     "check_finite",
+    "check_magnitude",
     "drop_constant_columns",
     "count_duplicates",
+    "LARGEST_MAGNITUDE",
+    "SMALLEST_MAGNITUDE",
 ]
 
 _SHOWN = 3  # positions quoted in a message
+# Squares of values beyond about 1.3e154 overflow float64 (largest 1.8e308) and squares below
+# about 1.5e-154 fall under its smallest normal number (2.2e-308); distances, kernels and sums
+# of squares over many rows and columns need a wide margin more, so data whose largest
+# magnitude lies outside [1e-100, 1e100] is refused (a rough limit, not a sharp one).
+LARGEST_MAGNITUDE = 1e100
+SMALLEST_MAGNITUDE = 1e-100
 
 
 class DataWarning(UserWarning):
     """Data that can be used but may mislead: duplicate rows, dropped constant columns."""
 
 
-def _warn(message: str, notes: list[str]) -> None:
+def warn_data(message: str, notes: list[str]) -> None:
+    """Issue a :class:`DataWarning` and keep its message in ``notes``."""
     warnings.warn(message, DataWarning, stacklevel=4)
     notes.append(message)
 
@@ -47,12 +59,73 @@ def check_row_count(n_rows: int, where: str, *, header: bool = False) -> None:
         )
 
 
-def numeric_matrix(frame: pd.DataFrame, where: str) -> np.ndarray:
-    """The frame's values as float64, or an error naming the first column holding text."""
+def check_unique_names(names: list, where: str) -> None:
+    """Refuse a table whose header gives two columns the same name.
+
+    A reader that renamed the twins (``depth``, ``depth.1``) would let ``drop`` or ``labels``
+    pick one of them while the other stays in, so the file must be fixed instead. Empty names
+    are left alone (readers number them).
+    """
+    seen: dict[str, list[int]] = {}
+    for position, name in enumerate(names, start=1):
+        if str(name).strip():
+            seen.setdefault(str(name), []).append(position)
+    twins = {name: where_ for name, where_ in seen.items() if len(where_) > 1}
+    if twins:
+        shown = "; ".join(
+            f"{name!r} (columns {', '.join(map(str, cols[:-1]))} and {cols[-1]})"
+            for name, cols in twins.items()
+        )
+        raise InputError(
+            f"{where} has duplicated column names: {shown}; give each column its own name "
+            "in the header, so that `labels`, `features` and `drop` pick exactly one"
+        )
+
+
+def _not_numbers(values: pd.Series) -> str | None:
+    """What a column holds when it cannot stand for numbers, as a phrase, or None."""
+    dtype = values.dtype
+    if isinstance(dtype, pd.DatetimeTZDtype) or pd.api.types.is_datetime64_any_dtype(dtype):
+        return f"dates and times ({dtype})"
+    if pd.api.types.is_timedelta64_dtype(dtype):
+        return f"time spans ({dtype})"
+    if isinstance(dtype, pd.PeriodDtype):
+        return f"periods ({dtype})"
+    if isinstance(dtype, pd.IntervalDtype):
+        return f"intervals ({dtype})"
+    if isinstance(dtype, pd.CategoricalDtype):
+        return "categories (a categorical column)"
+    if pd.api.types.is_object_dtype(dtype):
+        kinds = {type(v).__name__ for v in values.dropna().iloc[:1000]}
+        odd = sorted(kinds - {"str", "int", "float", "bool", "Decimal"})
+        if odd:
+            return f"values of type {', '.join(odd)}"
+    return None
+
+
+def numeric_matrix(frame: pd.DataFrame, where: str, notes: list[str] | None = None) -> np.ndarray:
+    """The frame's values as float64, or an error naming the first column that is not numbers.
+
+    Dates, time spans, periods, intervals, categories and objects such as lists are refused,
+    never turned into their internal integers (a date would become nanoseconds). True / false
+    columns are read as 1 / 0, and a :class:`DataWarning` says so (kept in ``notes``).
+    """
     converted = {}
+    booleans = []
     for column in frame.columns:
         values = frame[column]
-        if pd.api.types.is_numeric_dtype(values) or pd.api.types.is_bool_dtype(values):
+        kind = _not_numbers(values)
+        if kind is not None:
+            example = " (for a date, e.g. hours since a starting time)" if "time" in kind else ""
+            raise InputError(
+                f"{where}: column {column!r} holds {kind}, not numbers; list it in `drop` "
+                "(--drop on the command line) or pass it as `labels`, or convert it to numbers "
+                f"yourself{example}"
+            )
+        if pd.api.types.is_bool_dtype(values):
+            booleans.append(column)
+            continue
+        if pd.api.types.is_numeric_dtype(values):
             continue
         coerced = pd.to_numeric(values, errors="coerce")
         bad = coerced.isna().to_numpy() & values.notna().to_numpy()
@@ -64,6 +137,12 @@ def numeric_matrix(frame: pd.DataFrame, where: str) -> np.ndarray:
                 "counted); fix the value, or pass the column as `labels` or list it in `drop`"
             )
         converted[column] = coerced
+    if booleans and notes is not None:
+        warn_data(
+            f"{where}: column(s) {_names([str(c) for c in booleans])} hold true / false; "
+            "they are read as 1 / 0",
+            notes,
+        )
     if converted:
         frame = frame.copy()
         for column, values in converted.items():
@@ -102,6 +181,36 @@ def check_finite(X: np.ndarray, columns: list[str], where: str) -> None:
     )
 
 
+def check_magnitude(X: np.ndarray, columns: list[str], where: str) -> None:
+    """Refuse values whose squares leave the range of float64 (see ``LARGEST_MAGNITUDE``).
+
+    Every method and criterion works with squared distances; with values near 1e300 they
+    overflow to infinity, near 1e-300 they vanish to 0, and the failure would surface deep in
+    a solver. Scaling the columns first (``scale = "standard"`` or ``"minmax"``) fixes both.
+    """
+    if X.size == 0:
+        return
+    peaks = np.max(np.abs(X), axis=0)
+    largest = float(peaks.max())
+    fix = (
+        'scale the data first: set `scale = "standard"` (or "minmax") in the dataset\'s '
+        "table, or divide the columns by a common factor before saving the file"
+    )
+    if largest > LARGEST_MAGNITUDE:
+        column = columns[int(np.argmax(peaks))]
+        raise InputError(
+            f"{where}: values reach {largest:.3g} in magnitude (column {column!r}); their "
+            "squares overflow double precision (largest about 1.8e308), so distances and "
+            f"kernels cannot be computed; {fix}"
+        )
+    if 0.0 < largest < SMALLEST_MAGNITUDE:
+        raise InputError(
+            f"{where}: every value is below {largest:.3g} in magnitude; their squares fall "
+            "under the smallest normal double (about 2.2e-308), so distances collapse to 0; "
+            f"{fix}"
+        )
+
+
 def drop_constant_columns(
     X: np.ndarray, columns: list[str], where: str, notes: list[str], *, warn: bool = True
 ) -> tuple[np.ndarray, list[str], list[str]]:
@@ -120,7 +229,7 @@ def drop_constant_columns(
             "reduce; check that the right columns were read"
         )
     if warn:
-        _warn(
+        warn_data(
             f"{where}: dropped {len(dropped)} constant column(s) ({_names(dropped)}); they "
             "carry no information",
             notes,
@@ -166,7 +275,7 @@ def count_duplicates(X: np.ndarray, where: str, notes: list[str], *, warn: bool 
     n_duplicates = int(duplicated.sum())
     if n_duplicates and warn:
         first = int(np.argmax(duplicated))
-        _warn(
+        warn_data(
             f"{where} has {n_duplicates} duplicate row(s) (the first at data row {first + 1}, "
             "rows counted from 1); neighbour graphs and rank-based criteria treat tied points "
             "arbitrarily, so consider removing them",

@@ -7,11 +7,7 @@ Text tables are parsed by pandas' C parser in one call (no Python loop over rows
 
 from __future__ import annotations
 
-import codecs
-import csv
-import errno
 import hashlib
-import importlib.util
 from pathlib import Path
 
 import numpy as np
@@ -19,10 +15,19 @@ import pandas as pd
 
 from lowdim.datasets._base import Dataset
 from lowdim.datasets.checks import check_row_count, numeric_matrix
+from lowdim.datasets.headers import (
+    Outline,
+    check_readable,
+    not_utf8,
+    numbered_columns,
+    outline,
+    parquet_columns,
+    text_header,
+)
 from lowdim.datasets.tables import assemble, split_frame
 from lowdim.errors import InputError
 
-__all__ = ["FORMATS", "file_format", "content_hash", "load_file"]
+__all__ = ["FORMATS", "file_format", "content_hash", "load_file", "check_file_columns"]
 
 FORMATS: dict[str, str] = {
     ".csv": "csv",
@@ -34,8 +39,6 @@ FORMATS: dict[str, str] = {
     ".npy": "npy",
     ".npz": "npz",
 }
-_DELIMITERS = ",\t;|"
-_SAMPLE_BYTES = 1 << 16
 
 
 def file_format(path: str | Path, where: str = "") -> str:
@@ -59,70 +62,19 @@ def content_hash(path: str | Path) -> str:
     return digest.hexdigest()
 
 
-def _text_sample(path: Path, where: str) -> str:
-    with open(path, "rb") as fh:
-        raw = fh.read(_SAMPLE_BYTES)
-    if not raw.strip():
-        raise InputError(f"{where} is empty; give a file with a header line and data rows")
-    if b"\x00" in raw:
-        raise InputError(
-            f"{where} looks like a binary file, not CSV/TSV text; export it as text, or use "
-            "a .npy, .npz or .parquet extension if it is one of those"
-        )
-    try:
-        # The incremental decoder does not fail on a character cut at the end of the sample.
-        text = codecs.getincrementaldecoder("utf-8")().decode(raw, final=False)
-    except UnicodeDecodeError as exc:
-        raise InputError(_not_utf8(where, exc)) from None
-    return text.lstrip("\ufeff")
-
-
-def _not_utf8(where: str, exc: UnicodeDecodeError) -> str:
-    return (
-        f"{where} is not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at byte offset "
-        f"{exc.start} cannot be decoded); save it as UTF-8"
-    )
-
-
-def _detect_delimiter(lines: list[str], kind: str) -> str:
-    preferred = "\t" if kind == "tsv" else ","
-    counts = {line.count(preferred) for line in lines}
-    if len(counts) == 1 and counts != {0}:
-        return preferred
-    try:
-        return csv.Sniffer().sniff("\n".join(lines), delimiters=_DELIMITERS).delimiter
-    except csv.Error:
-        return preferred  # one column, or no consistent delimiter: the parser will say so
-
-
-def _is_number(field: str) -> bool:
-    try:
-        float(field)
-    except ValueError:
-        return False
-    return True
-
-
 def _read_text(path: Path, kind: str, where: str, delimiter: str | None) -> pd.DataFrame:
-    text = _text_sample(path, where)
-    lines = [line for line in text.splitlines() if line.strip()]
-    if len(text.encode("utf-8")) >= _SAMPLE_BYTES - 4 and len(lines) > 1:
-        lines = lines[:-1]  # the last line of a cut sample may be incomplete
-    lines = lines[:200]
-    sep = delimiter or _detect_delimiter(lines, kind)
-    first = next(csv.reader([lines[0]], delimiter=sep))
-    header = not all(_is_number(field) for field in first)
+    sep, names = text_header(path, kind, where, delimiter)
     try:
         frame = pd.read_csv(
             path,
             sep=sep,
-            header=0 if header else None,
+            header=None if names is None else 0,
             engine="c",
             encoding="utf-8",
             low_memory=False,
         )
     except UnicodeDecodeError as exc:
-        raise InputError(_not_utf8(where, exc)) from None
+        raise InputError(not_utf8(where, exc)) from None
     except pd.errors.ParserError as exc:
         raise InputError(
             f"{where} could not be parsed with delimiter {sep!r}: {' '.join(str(exc).split())}"
@@ -132,18 +84,14 @@ def _read_text(path: Path, kind: str, where: str, delimiter: str | None) -> pd.D
         raise InputError(
             f"{where} is empty; give a file with a header line and data rows"
         ) from None
-    if not header:
-        frame.columns = [f"column_{i + 1}" for i in range(frame.shape[1])]
-    check_row_count(len(frame), where, header=header)
+    if names is None:
+        frame.columns = numbered_columns(frame.shape[1])
+    check_row_count(len(frame), where, header=names is not None)
     return frame
 
 
 def _read_parquet(path: Path, where: str) -> pd.DataFrame:
-    if importlib.util.find_spec("pyarrow") is None:
-        raise InputError(
-            f"reading {where} needs pyarrow, which is not installed; install it with "
-            "`pip install 'lowdim[parquet]'` or convert the file to CSV"
-        )
+    parquet_columns(path, where)  # pyarrow present, a Parquet footer, no duplicated names
     try:
         frame = pd.read_parquet(path)
     except Exception as exc:  # pyarrow raises its own error types for a bad file
@@ -206,6 +154,21 @@ def _load_npy(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
     return assemble(path.stem, X, columns, spec=spec, where=where, meta=meta)
 
 
+def _member(archive, key: str, where: str) -> np.ndarray:
+    try:
+        return archive[key]
+    except ValueError as exc:  # numpy refuses object arrays without pickle, and bad headers
+        if "allow_pickle" in str(exc):
+            raise InputError(
+                f"{where}: the array {key!r} holds Python objects, which lowdim does not "
+                "unpickle; save it with a plain dtype, e.g. labels.astype(str)"
+            ) from None
+        raise InputError(
+            f"{where}: the array {key!r} cannot be read ({' '.join(str(exc).split())}); save "
+            "it again with numpy.savez"
+        ) from None
+
+
 def _load_npz(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
     try:
         archive = np.load(path, allow_pickle=False)
@@ -221,7 +184,7 @@ def _load_npz(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
                 f"{where} has no array 'X' (its keys are {', '.join(map(repr, keys))}); save the "
                 "data as numpy.savez(path, X=..., labels=..., truth=...)"
             )
-        X = _numeric_array(archive["X"], "the array 'X'", where)
+        X = _numeric_array(_member(archive, "X", where), "the array 'X'", where)
         check_row_count(X.shape[0], where)
         label_key = spec.get("labels") or ("labels" if "labels" in keys else None)
         if label_key is not None and label_key not in keys:
@@ -229,8 +192,8 @@ def _load_npz(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
                 f"{where} has no array {label_key!r} (named in `labels`); its keys are "
                 f"{', '.join(map(repr, keys))}"
             )
-        labels = archive[label_key] if label_key is not None else None
-        truth = archive["truth"] if "truth" in keys else None
+        labels = _member(archive, label_key, where) if label_key is not None else None
+        truth = _member(archive, "truth", where) if "truth" in keys else None
     if labels is not None and len(labels) != X.shape[0]:
         raise InputError(
             f"{where}: the labels {label_key!r} have {len(labels)} entries but 'X' has "
@@ -254,10 +217,7 @@ def load_file(spec: dict) -> Dataset:
     """Load the file named by ``spec["file"]`` with the spec's options."""
     path = Path(spec["file"]).expanduser()
     where = f"the file {str(path)!r}"
-    if not path.exists():
-        raise FileNotFoundError(errno.ENOENT, "no such data file", str(path))
-    if path.is_dir():
-        raise InputError(f"{where} is a folder, not a file; name a data file inside it")
+    check_readable(path, where)
     kind = file_format(path)
     if path.stat().st_size == 0:
         raise InputError(f"{where} is empty; give a file with data rows")
@@ -277,7 +237,8 @@ def load_file(spec: dict) -> Dataset:
     else:
         frame = _read_text(path, kind, where, spec.get("delimiter"))
     features, labels = split_frame(frame, spec, where)
-    X = numeric_matrix(features, where)
+    meta["warnings"] = []
+    X = numeric_matrix(features, where, meta["warnings"])
     return assemble(
         path.stem,
         X,
@@ -288,3 +249,29 @@ def load_file(spec: dict) -> Dataset:
         labels=labels,
         label_name=spec.get("labels"),
     )
+
+
+def check_file_columns(spec: dict, where: str) -> Outline:
+    """Check a file spec's `labels`, `features` and `drop` against the file's header alone.
+
+    ``spec`` is a normalised file spec; ``where`` names its place (a suite's table). The same
+    rules as loading apply (:func:`~lowdim.datasets.tables.split_frame` on a frame with no
+    rows), so a misspelled column fails here, before any job runs. Returns the file's
+    :class:`~lowdim.datasets.headers.Outline` (its row count feeds the memory estimate).
+    """
+    path = Path(spec["file"]).expanduser()
+    here = f"{where}: the file {str(path)!r}"
+    kind = file_format(path, where)
+    shape = outline(path, kind, here, spec.get("delimiter"))
+    if shape.columns is not None:
+        split_frame(pd.DataFrame(columns=shape.columns), spec, here)
+        return shape
+    if shape.n_columns is not None:
+        _select_array_columns(np.empty((0, shape.n_columns)), spec, here)
+    label_key = spec.get("labels")
+    if kind == "npz" and label_key is not None and label_key not in (shape.keys or []):
+        raise InputError(
+            f"{here} has no array {label_key!r} (named in `labels`); its keys are "
+            f"{', '.join(map(repr, shape.keys or []))}"
+        )
+    return shape

@@ -5,7 +5,8 @@ colours them like a chessboard (two classes), as in the label protocol of van de
 Postma & van den Herik (TiCC TR 2009-005), which labels its artificial sets by a two-class
 checkerboard over the manifold parameters. ``"bands:N"`` cuts the first coordinate into N
 equal bands (N classes). ``"classes"`` gives the family's own classes (the moon, the circle,
-the blob, the piece of a broken roll), ``"none"`` no labels.
+the blob, the piece of the roll with a gap), ``"none"`` no labels. A scheme of one cell
+(``"checker:1x1"``, ``"bands:1"``) is refused: a single class cannot tell methods apart.
 
 The cuts are made on the *unit* coordinates (each generating parameter on [0, 1]), so the
 cells are fixed by the recipe, not by where the sample happens to fall.
@@ -41,7 +42,12 @@ def parse_scheme(scheme: str) -> tuple[str, tuple[int, ...]]:
 
 def scheme_problem(scheme: str, *, intrinsic_dim: int, has_classes: bool) -> str | None:
     """Why ``scheme`` does not fit a family, as a phrase, or None when it fits."""
-    kind, _ = parse_scheme(scheme)
+    kind, sizes = parse_scheme(scheme)
+    if kind in ("checker", "bands") and all(size == 1 for size in sizes):
+        return (
+            f"{scheme!r} gives every point the same label, which cannot tell methods apart; "
+            "use at least two cells, e.g. 'checker:2x2' or 'bands:2'"
+        )
     if kind == "classes" and not has_classes:
         return "this dataset has no natural classes; use 'checker:AxB' or 'bands:N'"
     if kind == "checker" and intrinsic_dim < 2:

@@ -31,10 +31,12 @@ import numpy as np
 
 from lowdim._validation import NONE, Interval
 from lowdim.datasets._base import Dataset, Family, Param, register
+from lowdim.datasets.checks import warn_data
 from lowdim.datasets.labels import SCHEME, scheme_problem
 from lowdim.datasets.labels import make_labels as _make_labels
 from lowdim.datasets.lift import lift, warp_uniform
 from lowdim.datasets.preprocess import PREPROCESS_PARAMS
+from lowdim.datasets.tables import unusable_labels
 from lowdim.errors import InputError
 
 __all__ = [
@@ -281,6 +283,12 @@ def _generate(name: str, sampler: Callable, own: tuple[str, ...], citation: str)
             "intrinsic_dim": None if sample.truth is None else int(sample.truth.shape[1]),
         }
         labels = _make_labels(params["labels"], sample.unit, sample.classes)
+        # A few points can all fall in cells of one colour: then the labels are not used.
+        unused = unusable_labels(labels, None, f"the dataset {name!r} (n = {params['n']})")
+        if unused:
+            meta["warnings"] = []
+            warn_data(unused, meta["warnings"])
+            labels = None
         return Dataset(name, np.ascontiguousarray(X, dtype=np.float64), labels, sample.truth, meta)
 
     return build

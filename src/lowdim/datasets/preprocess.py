@@ -6,6 +6,12 @@ column's median and divides by its interquartile range (so a few extreme values 
 unit), ``"minmax"`` maps each column onto [0, 1]; ``pca_first = N`` keeps the first N
 principal components (a common first step before a nonlinear method on wide data, common
 practice).
+
+Standard scaling first divides each column by its largest magnitude, which leaves its result
+unchanged in exact arithmetic but keeps the squares of the standard deviation inside float64
+for values near 1e300 or 1e-300 (the other scalings square nothing). Values whose squares
+would still overflow or underflow are refused before ``pca_first``
+(:func:`lowdim.datasets.checks.check_magnitude`).
 """
 
 from __future__ import annotations
@@ -14,6 +20,7 @@ import numpy as np
 
 from lowdim._validation import BOOL, NONE, Interval, Options
 from lowdim.datasets._base import Param
+from lowdim.datasets.checks import check_magnitude
 from lowdim.errors import InputError
 
 __all__ = ["PREPROCESS_PARAMS", "preprocess"]
@@ -45,6 +52,8 @@ def preprocess(
         X = np.log1p(X)
     scale = spec.get("scale", "none")
     if scale == "standard":
+        peak = np.max(np.abs(X), axis=0)
+        X = X / np.where(peak > 0, peak, 1.0)
         spread = X.std(axis=0)
         X = (X - X.mean(axis=0)) / np.where(spread > 0, spread, 1.0)
     elif scale == "robust":
@@ -55,6 +64,7 @@ def preprocess(
         low = X.min(axis=0)
         span = X.max(axis=0) - low
         X = (X - low) / np.where(span > 0, span, 1.0)
+    check_magnitude(X, columns, where)
     n_keep = spec.get("pca_first")
     if n_keep is not None:
         limit = min(X.shape)

@@ -20,7 +20,9 @@ import numpy as np
 from lowdim._validation import NONE, Instance, Interval, Options, Pattern, check_param
 from lowdim.datasets import bundled, files, manifolds  # noqa: F401  (they register families)
 from lowdim.datasets._base import Dataset, Param, get_family
+from lowdim.datasets.checks import warn_data
 from lowdim.datasets.preprocess import PREPROCESS_PARAMS, preprocess
+from lowdim.datasets.tables import unusable_labels
 from lowdim.errors import InputError, suggestion
 
 __all__ = ["SOURCE_PARAMS", "validate_spec", "load", "describe", "subsample_rows"]
@@ -238,10 +240,20 @@ def _subsample(dataset: Dataset, params: dict) -> Dataset:
         return dataset
     rows = subsample_rows(dataset.n_samples, size, params.get("subsample_seed", 0))
     meta = {**dataset.meta, "subsample_rows": size, "rows_in_file": dataset.n_samples}
+    labels = None if dataset.labels is None else dataset.labels[rows]
+    if labels is not None:
+        names = np.asarray(meta.get("classes") or np.unique(labels), dtype=object)
+        where = f"the file {str(params['file'])!r}, subsample of {size} rows"
+        unused = unusable_labels(names[labels], meta.get("label_column"), where)
+        if unused:
+            meta["warnings"] = list(meta.get("warnings", []))
+            warn_data(unused, meta["warnings"])
+            meta["labels_unused"] = unused
+            labels = None
     return dataclasses.replace(
         dataset,
         X=np.ascontiguousarray(dataset.X[rows]),
-        labels=None if dataset.labels is None else dataset.labels[rows],
+        labels=labels,
         truth=None if dataset.truth is None else dataset.truth[rows],
         meta=meta,
     )

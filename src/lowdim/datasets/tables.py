@@ -3,6 +3,12 @@
 Shared by user files, bundled real data and OpenML downloads: pick the label and feature
 columns, refuse text, missing values and infinities, drop constant columns, count duplicate
 rows, encode labels as integer codes, then apply the spec's preprocessing.
+
+A label column that cannot tell methods apart is not used: when every value is missing, or
+when every row has the same class (then each method would score a perfect neighbour vote).
+The Dataset then has no labels, so the criteria that need them are skipped, and a
+:class:`~lowdim.datasets.checks.DataWarning` says why (kept in ``meta["warnings"]``). A label
+column with only some values missing is refused.
 """
 
 from __future__ import annotations
@@ -16,13 +22,15 @@ from lowdim.datasets._base import Dataset
 from lowdim.datasets.checks import (
     check_finite,
     check_row_count,
+    check_unique_names,
     count_duplicates,
     drop_constant_columns,
+    warn_data,
 )
 from lowdim.datasets.preprocess import preprocess
 from lowdim.errors import InputError, suggestion
 
-__all__ = ["split_frame", "encode_labels", "assemble"]
+__all__ = ["split_frame", "encode_labels", "unusable_labels", "assemble"]
 
 
 def _columns_text(columns: Sequence) -> str:
@@ -43,8 +51,12 @@ def _require(names: Sequence, available: Sequence, key: str, where: str) -> None
 def split_frame(
     frame: pd.DataFrame, spec: dict, where: str
 ) -> tuple[pd.DataFrame, pd.Series | None]:
-    """The feature columns and the label column named by ``labels``, ``features``, ``drop``."""
+    """The feature columns and the label column named by ``labels``, ``features``, ``drop``.
+
+    Works on the header alone (a frame with no rows), as the suite check uses it.
+    """
     columns = list(frame.columns)
+    check_unique_names(columns, where)
     label_name = spec.get("labels")
     if label_name is not None:
         _require([label_name], columns, "labels", where)
@@ -87,6 +99,25 @@ def encode_labels(values, label_name: str | None, where: str) -> tuple[np.ndarra
     return codes.astype(np.int64), [c.item() if hasattr(c, "item") else c for c in classes]
 
 
+def unusable_labels(values, label_name: str | None, where: str) -> str | None:
+    """Why a label column cannot be used (all missing, or a single class), or None."""
+    if values is None:
+        return None
+    series = pd.Series(np.asarray(values).ravel())
+    column = f"the label column {label_name!r}" if label_name else "the label array"
+    skipped = "it is not used, and the criteria that need labels are skipped"
+    if len(series) and series.isna().all():
+        return f"{where}: {column} is empty (all {len(series)} values are missing); {skipped}"
+    distinct = series.dropna().unique()
+    if len(distinct) == 1 and not series.isna().any():
+        value = distinct[0].item() if hasattr(distinct[0], "item") else distinct[0]
+        return (
+            f"{where}: {column} holds a single class ({value!r}) in all {len(series)} rows, "
+            f"so it cannot tell methods apart; {skipped}"
+        )
+    return None
+
+
 def assemble(
     name: str,
     X: np.ndarray,
@@ -106,7 +137,14 @@ def assemble(
     notes: list[str] = list(meta.get("warnings", []))
     X, columns, dropped = drop_constant_columns(X, columns, where, notes, warn=warn)
     n_duplicates = count_duplicates(X, where, notes, warn=warn)
-    codes, classes = encode_labels(labels, label_name, where)
+    unused = unusable_labels(labels, label_name, where)
+    if unused:
+        warn_data(unused, notes)
+        # The single class (if any) is kept in meta, so an output can still show the column.
+        _, classes = encode_labels(pd.Series(np.asarray(labels).ravel()).dropna(), None, where)
+        codes = None
+    else:
+        codes, classes = encode_labels(labels, label_name, where)
     if truth is not None:
         truth = np.asarray(truth, dtype=np.float64)
         if truth.ndim == 1:
@@ -126,5 +164,6 @@ def assemble(
         "warnings": notes,
         "classes": classes,
         "label_column": label_name,
+        "labels_unused": unused,
     }
     return Dataset(name, X, codes, truth, meta)
