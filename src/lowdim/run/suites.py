@@ -24,6 +24,7 @@ from typing import Any
 
 from lowdim import __version__
 from lowdim.errors import InputError, suggestion
+from lowdim.run.suite_checks import check_construction, check_memory, file_size, method_defaults
 
 __all__ = ["Job", "Suite", "load_suite", "suite_from_dict", "parse_memory", "ordinal"]
 
@@ -111,6 +112,8 @@ class Entry:
     label: str
     where: str
     id_spec: dict = field(default_factory=dict)
+    # (rows, feature columns) of a file dataset as its header tells, for the memory check
+    size: tuple[int | None, int | None] | None = None
 
 
 @dataclass(frozen=True)
@@ -189,15 +192,26 @@ def load_suite(path: str | Path) -> Suite:
 
     Raises
     ------
-    FileNotFoundError
-        When the file does not exist.
     InputError
-        When the file is not TOML (with the parser's line and column) or not a valid suite.
+        When the file is missing or unreadable (a folder, a symlink loop, no permission), not
+        UTF-8, not TOML (with the parser's line and column) or not a valid suite.
     """
+    from lowdim.datasets.headers import check_readable
+
     path = Path(path)
-    if not path.is_file():
-        raise InputError(f"suite file {str(path)!r} not found; give the path to a .toml file")
-    text = path.read_text(encoding="utf-8")
+    try:
+        check_readable(path, f"the suite file {str(path)!r}")
+    except FileNotFoundError:
+        raise InputError(
+            f"suite file {str(path)!r} not found; give the path to a .toml file"
+        ) from None
+    try:
+        text = path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"the suite file {str(path)!r} is not UTF-8 text (byte offset {exc.start}); save "
+            "it as UTF-8"
+        ) from None
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -235,6 +249,7 @@ def suite_from_dict(data: dict, source: str = "<suite>", text: str | None = None
     ]
     _check_unique(dataset_entries, "datasets")
     _check_unique(method_entries, "methods")
+    check_memory(dataset_entries, method_entries, settings["memory_limit"])
     if text is None:
         text = json.dumps(data, indent=2, sort_keys=True, default=str)
     return Suite(
@@ -491,6 +506,7 @@ def _dataset_entries(table: dict, where: str, base: Path) -> list[Entry]:
     for point in points:
         raw = {**fixed, **point}
         spec = datasets.validate_spec(raw, where=where)
+        size = file_size(spec, where) if "file" in spec else None
         if "file" in spec:
             shown = {k: v for k, v in raw.items() if k != "file"}
             name = Path(str(spec["file"])).name
@@ -509,16 +525,22 @@ def _dataset_entries(table: dict, where: str, base: Path) -> list[Entry]:
             text = _label(name, shown)
         else:
             text = _label(label, point)
-        entries.append(Entry(spec=spec, label=text, where=where, id_spec=id_spec))
+        entries.append(Entry(spec=spec, label=text, where=where, id_spec=id_spec, size=size))
     return entries
 
 
 def _file_hash(fixed: dict, where: str) -> str | None:
+    from lowdim.datasets.headers import check_readable
+
     if "file" not in fixed:
         return None
     path = Path(str(fixed["file"]))
-    if not path.is_file():
-        raise InputError(f"{where}: the data file {str(path)!r} (key `file`) does not exist")
+    try:
+        check_readable(path, f"{where}: the data file {str(path)!r} (key `file`)")
+    except FileNotFoundError:
+        raise InputError(
+            f"{where}: the data file {str(path)!r} (key `file`) does not exist"
+        ) from None
     digest = hashlib.sha256()
     with path.open("rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
@@ -546,25 +568,10 @@ def _method_entries(table: dict, where: str) -> list[Entry]:
         cls = get_method(target) if has_name else import_object(target)
     except InputError as exc:
         raise InputError(f"{where}: `{key}`: {exc}") from None
-    if not isinstance(cls, type) or not hasattr(cls, "fit"):
-        raise InputError(
-            f"{where}: `{key} = {target!r}` is not an estimator class with fit / fit_transform"
-        )
-    try:
-        defaults = cls().get_params(deep=False)
-    except Exception as exc:
-        raise InputError(
-            f"{where}: `{target}` cannot be built with its default parameters "
-            f"({type(exc).__name__}: {exc}); it must be a scikit-learn compatible estimator"
-        ) from None
+    given = list(dict.fromkeys([*fixed, *(points[0] if points else {})]))
+    defaults = method_defaults(cls, target, key, where, given)
     specs = getattr(cls, "_param_specs", {})
     owner = cls.__name__
-    for param in [*fixed, *(points[0] if points else {})]:
-        if param not in defaults:
-            raise InputError(
-                f"{where}: unknown parameter `{param}` of {target}"
-                f"{suggestion(param, defaults)}; its parameters are " + ", ".join(defaults)
-            )
     for point in points:
         for param, value in {**fixed, **point}.items():
             if param in specs:
@@ -572,6 +579,7 @@ def _method_entries(table: dict, where: str) -> list[Entry]:
                     check_param(owner, param, value, specs[param], {})
                 except InputError as exc:
                     raise InputError(f"{where}: {exc}") from None
+        check_construction(cls, target, where, {**fixed, **point})
     base = target if has_name else _import_label(target)
     entries = []
     for point in points:
