@@ -13,6 +13,8 @@ import sys
 
 from lowdim._files import write_text
 from lowdim.analysis.engine import analyse_folder
+from lowdim.cli.paths import check_out_folder
+from lowdim.datasets.headers import check_readable
 from lowdim.report import build_report
 from lowdim.report.recommendation import embed_command, recommendation
 from lowdim.report.text import fixed_width, wrap_sentence
@@ -128,7 +130,14 @@ def options_from(args: argparse.Namespace) -> CompareOptions:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.out:
+        check_out_folder(args.out)
+    try:
+        check_readable(args.file, f"the data file {args.file!r}")
+    except FileNotFoundError:
+        pass  # plan_comparison words a missing file
     plan = plan_comparison(args.file, options_from(args), plugins=args.plugin, out_dir=args.out)
+    check_out_folder(plan.out_dir)
     for note in plan.warnings:
         print(f"lowdim: warning: {note}", file=sys.stderr)
     for finding in plan.context["findings"]:

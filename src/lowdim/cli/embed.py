@@ -19,6 +19,8 @@ from typing import Any
 import numpy as np
 
 from lowdim._files import atomic_path
+from lowdim.cli.paths import check_out_file_folder
+from lowdim.datasets.headers import check_readable
 from lowdim.errors import InputError, suggestion
 
 HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
@@ -114,10 +116,7 @@ def _check_output(path: Path) -> str:
         raise InputError(
             f"--out {str(path)!r} must end in .csv or .npy (the format follows the extension)"
         )
-    if not path.parent.is_dir():
-        raise InputError(
-            f"--out {str(path)!r}: the folder {str(path.parent)!r} does not exist; create it first"
-        )
+    check_out_file_folder(path)
     if path.is_dir():
         raise InputError(f"--out {str(path)!r} is a folder; give a file name ending in {suffix}")
     return suffix
@@ -171,8 +170,12 @@ def run(args: argparse.Namespace) -> int:
             )
         params["n_components"] = args.n_components
     estimator = configure_method(args.method, params)
-    if not Path(args.file).exists():
-        raise InputError(f"data file {args.file!r} not found; give the path to a data file")
+    try:
+        check_readable(args.file, f"the data file {args.file!r}")
+    except FileNotFoundError:
+        raise InputError(
+            f"data file {args.file!r} not found; give the path to a data file"
+        ) from None
     spec: dict[str, Any] = {"file": args.file}
     if args.labels:
         spec["labels"] = args.labels

@@ -1,20 +1,27 @@
 """The ``lowdim`` command line: argparse front end, no numerics here.
 
 Each sub-command lives in ``lowdim.cli.<name>`` with ``HELP``, ``add_arguments(parser)``
-and ``run(args) -> int``. A user's mistake prints one line on stderr and exits with status 2;
-an unexpected error prints one line calling it a defect, with the path of a log holding the
-traceback.
+and ``run(args) -> int``.
+
+The error policy: the project's own input errors (:class:`~lowdim.errors.InputError`, and a
+plugin that fails to import) and ordinary environment problems (a missing or unreadable file,
+a folder where a file was expected or the reverse, a symlink loop, a read-only or full disk)
+print one line on stderr and exit with status 2. Standard output closed by its reader
+(``lowdim methods | head -1``) ends the command quietly, also with status 2. Anything else,
+including a bare ``ValueError`` from a library, is a defect: one line saying so, with the path
+of a log holding the traceback, and status 1. So every user mistake must be caught where it
+first appears and raised as an ``InputError`` with a message saying what, where and how to fix.
 """
 
 from __future__ import annotations
 
 import argparse
+import errno
 import importlib
 import logging
 import os
 import sys
 import tempfile
-import tomllib
 import traceback
 from collections.abc import Sequence
 
@@ -82,6 +89,37 @@ def _write_defect_log() -> str:
     return path
 
 
+# OSError numbers that are the user's environment, not a defect: each gets one line.
+ENVIRONMENT_ERRNOS = frozenset(
+    {
+        errno.ENOENT,
+        errno.EACCES,
+        errno.EPERM,
+        errno.EISDIR,
+        errno.ENOTDIR,
+        errno.ELOOP,
+        errno.EEXIST,
+        errno.EROFS,
+        errno.ENOSPC,
+        errno.EDQUOT,
+        errno.ENAMETOOLONG,
+    }
+)
+_HINTS = {
+    errno.ENOENT: "check the path",
+    errno.EACCES: "check its permissions or choose another path",
+    errno.EPERM: "check its permissions or choose another path",
+    errno.EISDIR: "a folder was given where a file is needed",
+    errno.ENOTDIR: "a part of the path is a file, not a folder",
+    errno.ELOOP: "a symbolic link points back at itself; point it at a real file",
+    errno.EEXIST: "choose another path",
+    errno.EROFS: "the file system is read-only; choose another place",
+    errno.ENOSPC: "the disk is full; free some space",
+    errno.EDQUOT: "the disk quota is used up; free some space",
+    errno.ENAMETOOLONG: "shorten the path",
+}
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
     parser = build_parser()
@@ -95,33 +133,62 @@ def main(argv: Sequence[str] | None = None) -> int:
 
         for path in args.plugin:
             load_plugin(path)
-        return int(args._run(args) or 0)
+        status = int(args._run(args) or 0)
+        sys.stdout.flush()  # a closed pipe shows here, not at exit
+        return status
     except PluginError as exc:
         print(f"lowdim: plugin error: {exc}", file=sys.stderr)
         return 2
-    except (InputError, FileNotFoundError, tomllib.TOMLDecodeError) as exc:
+    except InputError as exc:
         print(f"lowdim: error: {_one_line(exc)}", file=sys.stderr)
         return 2
-    except ValueError as exc:
-        # Raised by a library below us on the user's data; still the user's input, still one line.
-        print(f"lowdim: error: {_one_line(exc)}", file=sys.stderr)
+    except BrokenPipeError:
+        _silence_stdout()
+        return 2
+    except OSError as exc:
+        if exc.errno not in ENVIRONMENT_ERRNOS:
+            return _defect(exc)
+        print(f"lowdim: error: {environment_message(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("lowdim: interrupted; finished jobs are kept, run again to resume", file=sys.stderr)
         return 130
     except Exception as exc:
-        path = _write_defect_log()
-        print(
-            f"lowdim: internal error (a defect in lowdim, please report it): "
-            f"{type(exc).__name__}: {_one_line(exc)}; traceback in {path}",
-            file=sys.stderr,
-        )
-        return 1
+        return _defect(exc)
+
+
+def _defect(exc: BaseException) -> int:
+    path = _write_defect_log()
+    print(
+        f"lowdim: internal error (a defect in lowdim, please report it): "
+        f"{type(exc).__name__}: {_one_line(exc)}; traceback in {path}",
+        file=sys.stderr,
+    )
+    return 1
+
+
+def _silence_stdout() -> None:
+    # The reader has gone: send what is still buffered, and the interpreter's final flush,
+    # to /dev/null so no second error is printed at exit.
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass  # stdout is not a file descriptor (e.g. captured in tests)
+    finally:
+        os.close(devnull)
+
+
+def environment_message(exc: OSError) -> str:
+    """One line for an environment problem: what happened, to which path, what to do."""
+    what = (exc.strerror or type(exc).__name__).rstrip(".").lower()
+    paths = [str(p) for p in (exc.filename, exc.filename2) if p is not None]
+    where = f" ({' -> '.join(repr(p) for p in paths)})" if paths else ""
+    hint = _HINTS.get(exc.errno or 0)
+    return f"{what}{where}" + (f"; {hint}" if hint else "")
 
 
 def _one_line(exc: BaseException) -> str:
-    if isinstance(exc, FileNotFoundError) and exc.filename:
-        return f"file not found: {exc.filename}"
     return " ".join(str(exc).split())
 
 

@@ -7,6 +7,7 @@ import sys
 from pathlib import Path
 
 from lowdim.analysis.engine import analyse_folder
+from lowdim.cli.paths import check_out_folder
 from lowdim.report import build_report
 from lowdim.report.build import write_tables
 from lowdim.report.text import run_summary
@@ -62,7 +63,7 @@ def summary_line(summary: RunSummary) -> str:
 
 def run(args: argparse.Namespace) -> int:
     suite = load_suite(args.suite)
-    out_dir = Path(args.out) if args.out else Path("results") / suite.name
+    out_dir = check_out_folder(Path(args.out) if args.out else Path("results") / suite.name)
     summary = run_suite(
         suite,
         out_dir,

@@ -1,0 +1,65 @@
+"""Checks of the paths a command writes to, before any work starts.
+
+A results folder given with ``--out`` must be a folder (or not exist yet, with an existing,
+writable folder above it), and lowdim must be allowed to write there; an output file's folder
+must exist and be writable. Each problem is one line naming the option and the path.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from lowdim.errors import InputError
+
+__all__ = ["check_out_folder", "check_out_file_folder"]
+
+
+def _writable(folder: Path) -> bool:
+    return os.access(folder, os.W_OK | os.X_OK)
+
+
+def check_out_folder(path: str | Path, option: str = "--out") -> Path:
+    """Return ``path`` if lowdim can create or write the results folder there."""
+    path = Path(path)
+    if path.exists() and not path.is_dir():
+        raise InputError(
+            f"{option} {str(path)!r} is a file, not a folder; give a folder for the results "
+            "(it is created if missing)"
+        )
+    existing = path
+    while not existing.exists():
+        if existing.is_symlink():
+            raise InputError(
+                f"{option} {str(path)!r}: {str(existing)!r} is a symbolic link that leads "
+                "nowhere (or to itself); give another folder"
+            )
+        existing = existing.parent
+    if not existing.is_dir():
+        raise InputError(
+            f"{option} {str(path)!r}: {str(existing)!r} is a file, so no folder can be made "
+            "below it; give another folder"
+        )
+    if not _writable(existing):
+        what = "the results folder" if existing == path else f"the folder {str(existing)!r}"
+        raise InputError(
+            f"{option} {str(path)!r}: {what} is not writable; choose a folder you can write "
+            "to, or change its permissions"
+        )
+    return path
+
+
+def check_out_file_folder(path: str | Path, option: str = "--out") -> Path:
+    """Return ``path`` if its folder exists and is writable (the file itself is replaced)."""
+    path = Path(path)
+    folder = path.parent
+    if not folder.is_dir():
+        raise InputError(
+            f"{option} {str(path)!r}: the folder {str(folder)!r} does not exist; create it first"
+        )
+    if not _writable(folder):
+        raise InputError(
+            f"{option} {str(path)!r}: the folder {str(folder)!r} is not writable; choose "
+            "another place or change its permissions"
+        )
+    return path
