@@ -273,3 +273,27 @@ def test_environment_messages_say_what_where_and_what_to_do(exc, words):
     # The wording follows the kernel's strerror for each errno (POSIX), then a hint.
     text = environment_message(exc)
     assert words in text and repr(exc.filename) in text and "\n" not in text
+
+
+def test_a_plugin_methods_value_error_is_its_verdict_not_a_defect(beehive, tmp_path, capsys):
+    # A plugin is not lowdim: its ValueError on the user's settings is shown as one line.
+    plugin = tmp_path / "hive_plugin.py"
+    plugin.write_text(
+        "from sklearn.base import BaseEstimator, TransformerMixin\n"
+        "from lowdim.methods import register_method\n\n"
+        '@register_method("hive_projection")\n'
+        "class HiveProjection(TransformerMixin, BaseEstimator):\n"
+        "    def __init__(self, n_components=2, spread=1.0):\n"
+        "        self.n_components = n_components\n"
+        "        self.spread = spread\n\n"
+        "    def fit(self, X, y=None):\n"
+        "        if self.spread <= 0:\n"
+        "            raise ValueError('spread must be positive')\n"
+        "        return self\n\n"
+        "    def transform(self, X):\n"
+        "        return X[:, : self.n_components] * self.spread\n"
+    )
+    args = ["embed", beehive, "--method", "hive_projection", "--set", "spread=-1"]
+    args += ["--plugin", plugin, "--out", tmp_path / "e.csv"]
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "hive_projection", "spread must be positive")

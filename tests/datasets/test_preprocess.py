@@ -72,9 +72,7 @@ def test_preprocessing_of_generated_data_keeps_truth():
 
 
 @pytest.mark.parametrize("factor", [1e300, 1e-300])
-@pytest.mark.parametrize(
-    "scale, scaler", [("standard", StandardScaler), ("minmax", MinMaxScaler)]
-)
+@pytest.mark.parametrize("scale, scaler", [("standard", StandardScaler), ("minmax", MinMaxScaler)])
 def test_scaling_is_blind_to_a_huge_or_tiny_factor(factor, scale, scaler):
     # Exact fact: both scalings are invariant to a positive factor per column, so the result
     # on X * 1e+-300 (whose squares leave float64) is scikit-learn's scaler applied to X.

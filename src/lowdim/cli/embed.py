@@ -152,6 +152,25 @@ def write_embedding(
             frame.to_csv(fh, index=False, lineterminator="\n")
 
 
+def _fit(estimator: Any, name: str, X: np.ndarray) -> Any:
+    """``fit_transform``; a plugin method's own ValueError is its verdict on the user's data
+    or settings (lowdim's built-ins raise InputError themselves)."""
+    from lowdim.methods import method_origin
+
+    origin = method_origin(name)
+    try:
+        return estimator.fit_transform(X)
+    except InputError:
+        raise
+    except ValueError as exc:
+        if origin.startswith("lowdim.methods."):
+            raise
+        raise InputError(
+            f"the method {name} ({origin}) refused the data or its settings: "
+            f"{' '.join(str(exc).split())}"
+        ) from None
+
+
 def _warn(caught: list[warnings.WarningMessage]) -> None:
     for w in caught:
         print(f"lowdim: warning: {' '.join(str(w.message).split())}", file=sys.stderr)
@@ -184,7 +203,7 @@ def run(args: argparse.Namespace) -> int:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         dataset = datasets.load(spec)
-        Y = np.asarray(estimator.fit_transform(dataset.X), dtype=np.float64)
+        Y = np.asarray(_fit(estimator, args.method, dataset.X), dtype=np.float64)
     _warn(caught)
     if Y.ndim != 2 or Y.shape[0] != dataset.n_samples or not np.isfinite(Y).all():
         raise InputError(

@@ -168,7 +168,8 @@ def load_openml(spec: dict) -> Dataset:
     label_column = spec.get("labels") or info.get("target")
     selection = {**spec, "labels": label_column}
     features, labels = split_frame(frame, selection, where)
-    X = numeric_matrix(features, where)
+    notes: list[str] = []
+    X = numeric_matrix(features, where, notes)
     citation = _OPENML_CITATION + (f"; {info['citation']}" if info.get("citation") else "")
     meta = {
         "source": f"OpenML (id {info.get('id')}, {info.get('name')!r}, version "
@@ -176,6 +177,7 @@ def load_openml(spec: dict) -> Dataset:
         "citation": citation,
         "cache_path": str(csv_path),
         "from_cache": cached,
+        "warnings": notes,
     }
     return assemble(
         f"openml_{ident}",
