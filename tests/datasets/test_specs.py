@@ -73,7 +73,7 @@ def test_file_specs_are_checked_without_reading_the_file():
         ({"name": "swiss_roll", "noise": -0.1}, r"`noise` .* must be a number in \[0, inf\)"),
         ({"name": "swiss_roll", "noise": "low"}, "`noise`"),
         ({"name": "swiss_roll", "labels": "stripes:3"}, "'checker:AxB' or 'bands:N'"),
-        ({"name": "iris", "scale": "zscore"}, "one of 'none', 'standard', 'minmax'"),
+        ({"name": "iris", "scale": "zscore"}, "one of 'none', 'standard', 'robust', 'minmax'"),
         ({"name": "iris", "pca_first": 0}, "`pca_first`"),
         ({"name": "iris", "n": 50}, "unknown key `n` for dataset 'iris'"),
         ({"n": 50}, "needs exactly one of `name`, `file` or `openml`, got none"),
