@@ -93,7 +93,7 @@ def test_preprocessing_and_columns_reach_the_suite(cabinet):
     plan = plan_comparison(cabinet, options)
     spec = plan.suite["datasets"][0]
     assert spec["scale"] == "robust" and spec["pca_first"] == 2
-    assert spec["drop"] == ["humidity"]  # kept columns are never features
+    assert spec["keep"] == ["humidity"]  # kept columns are never features
     assert plan.context["options"]["keep"] == ["humidity"]
     assert plan.context["n_features"] == 3
 

@@ -24,7 +24,7 @@ from lowdim.datasets.headers import (
     parquet_columns,
     text_header,
 )
-from lowdim.datasets.tables import assemble, split_frame
+from lowdim.datasets.tables import assemble, kept_columns, split_frame
 from lowdim.errors import InputError
 
 __all__ = ["FORMATS", "file_format", "content_hash", "load_file", "check_file_columns"]
@@ -237,6 +237,7 @@ def load_file(spec: dict) -> Dataset:
     else:
         frame = _read_text(path, kind, where, spec.get("delimiter"))
     features, labels = split_frame(frame, spec, where)
+    meta["kept"] = kept_columns(frame, spec)
     meta["warnings"] = []
     X = numeric_matrix(features, where, meta["warnings"])
     return assemble(

@@ -53,12 +53,16 @@ _SELECT = {
     "features": Param(None, (NONE, _COLUMNS), "use only these columns"),
     "drop": Param([], (_COLUMNS,), "leave out these columns"),
 }
-# A random subset of the rows, taken after loading; left out of the normalised spec when not
-# given, so specs (and job ids) that do not use it are unchanged.
+# A random subset of the rows, taken after loading, and columns carried along but never used
+# as features; left out of the normalised spec when not given, so specs (and job ids) that do
+# not use them are unchanged.
 _SUBSAMPLE = {
     "subsample": Param(None, (NONE, Interval(int, 2, None)), "use a random subset of N rows"),
     "subsample_seed": Param(
         0, (Interval(int, 0, 2**32 - 1),), "seed of the subset (independent of `seed`)"
+    ),
+    "keep": Param(
+        [], (_COLUMNS,), "carry these columns (ids) along in meta['kept'], never as features"
     ),
 }
 
@@ -189,7 +193,8 @@ def validate_spec(spec: dict, *, where: str = "") -> dict:
                 "column; save X and labels together with numpy.savez(path, X=..., labels=...)"
             )
         if kind in ("npy", "npz") and any(
-            isinstance(c, str) for c in (out["features"] or []) + out["drop"]
+            isinstance(c, str)
+            for c in (out["features"] or []) + out["drop"] + list(out.get("keep") or [])
         ):
             raise InputError(
                 f"{_ordinal(where)}the columns of a .{kind} array have no names: give "
@@ -240,6 +245,8 @@ def _subsample(dataset: Dataset, params: dict) -> Dataset:
         return dataset
     rows = subsample_rows(dataset.n_samples, size, params.get("subsample_seed", 0))
     meta = {**dataset.meta, "subsample_rows": size, "rows_in_file": dataset.n_samples}
+    if meta.get("kept"):
+        meta["kept"] = {k: [v[i] for i in rows] for k, v in meta["kept"].items()}
     labels = None if dataset.labels is None else dataset.labels[rows]
     if labels is not None:
         names = np.asarray(meta.get("classes") or np.unique(labels), dtype=object)

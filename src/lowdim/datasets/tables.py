@@ -30,7 +30,7 @@ from lowdim.datasets.checks import (
 from lowdim.datasets.preprocess import preprocess
 from lowdim.errors import InputError, suggestion
 
-__all__ = ["split_frame", "encode_labels", "unusable_labels", "assemble"]
+__all__ = ["split_frame", "kept_columns", "encode_labels", "unusable_labels", "assemble"]
 
 
 def _columns_text(columns: Sequence) -> str:
@@ -51,7 +51,8 @@ def _require(names: Sequence, available: Sequence, key: str, where: str) -> None
 def split_frame(
     frame: pd.DataFrame, spec: dict, where: str
 ) -> tuple[pd.DataFrame, pd.Series | None]:
-    """The feature columns and the label column named by ``labels``, ``features``, ``drop``.
+    """The feature columns and the label column named by ``labels``, ``features``, ``drop``;
+    ``keep`` columns are never features (read them with :func:`kept_columns`).
 
     Works on the header alone (a frame with no rows), as the suite check uses it.
     """
@@ -61,8 +62,17 @@ def split_frame(
     if label_name is not None:
         _require([label_name], columns, "labels", where)
     features = spec.get("features")
+    keep = list(spec.get("keep") or [])
+    _require(keep, columns, "keep", where)
     drop = list(spec.get("drop") or [])
     _require(drop, columns, "drop", where)
+    clash = [c for c in keep if c in (features or []) or c == label_name]
+    if clash:
+        raise InputError(
+            f"{where}: the column {clash[0]!r} is named in `keep` and as a feature or the label; "
+            "a kept column is carried along and never used"
+        )
+    drop += keep
     if features is not None:
         _require(features, columns, "features", where)
         if label_name in features:
@@ -80,6 +90,11 @@ def split_frame(
         )
     labels = frame[label_name] if label_name is not None else None
     return frame[chosen], labels
+
+
+def kept_columns(frame: pd.DataFrame, spec: dict) -> dict[str, list]:
+    """The values of the spec's ``keep`` columns, as plain lists in row order."""
+    return {str(c): frame[c].tolist() for c in spec.get("keep") or []}
 
 
 def encode_labels(values, label_name: str | None, where: str) -> tuple[np.ndarray | None, list]:

@@ -211,16 +211,17 @@ def _check_options(options: CompareOptions) -> None:
 
 
 def _spec(path: Path, options: CompareOptions, *, preprocessing: bool) -> dict[str, Any]:
-    """The file's dataset spec: ``--keep`` columns are left out of the features like
-    ``--drop`` ones (the ``embed`` command carries them into its output)."""
+    """The file's dataset spec: ``--keep`` columns are never features (the ``embed`` command
+    carries them into its output)."""
     spec: dict[str, Any] = {"file": str(path.resolve())}
     if options.labels:
         spec["labels"] = options.labels
     if options.features:
         spec["features"] = list(options.features)
-    drop = list(dict.fromkeys([*options.drop, *options.keep]))
-    if drop:
-        spec["drop"] = drop
+    if options.drop:
+        spec["drop"] = list(options.drop)
+    if options.keep:
+        spec["keep"] = list(options.keep)
     if preprocessing:
         if options.scale != "none":
             spec["scale"] = options.scale
