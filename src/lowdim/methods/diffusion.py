@@ -138,8 +138,8 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
     q(x)^-alpha cancels); for the sparse kernel a new point's edges follow the training rule
     (see :func:`lowdim.methods._graphs.query_distance_graph`), for each kept coordinate. It
     reproduces the training coordinates on the training points up to the eigen-solver's
-    residual: to about 1e-8 relative (the sparse kernel's AMG-LOBPCG is run to a residual of
-    1e-8 for that reason; Lanczos and the dense solver go further).
+    residual: to a few times 1e-7 of the largest coordinate (the sparse kernel's AMG-LOBPCG is
+    run to a residual of 1e-7 for that reason; Lanczos and the dense solver go further).
 
     References
     ----------

@@ -150,8 +150,8 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
 
     for each kept eigenpair (lambda, f) (the chosen ones with ``coordinates="independent"``).
     On the training points these give the training coordinates back up to the eigen-solver's
-    residual: exactly for the dense solver, to about 1e-8 relative for AMG-LOBPCG, which is
-    run to a residual of 1e-8 for that reason.
+    residual: exactly for the dense solver, to a few times 1e-7 of the largest coordinate for
+    AMG-LOBPCG, which is run to a residual of 1e-7 for that reason.
 
     References
     ----------
