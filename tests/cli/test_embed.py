@@ -138,3 +138,50 @@ def test_fit_time_error_leaves_nothing(orchard, tmp_path, capsys):
     assert status == 2
     assert "n_components" in err and err.count("\n") == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["orchard.csv"]
+
+
+def test_quality_adds_per_point_columns_whose_means_are_the_criteria(orchard, tmp_path, capsys):
+    path, frame = orchard
+    out = tmp_path / "trees_quality.csv"
+    status = main(
+        ["embed", str(path), "--method", "pca", "--labels", "variety", "--drop", "tree"]
+        + ["--quality", "7", "--out", str(out)]
+    )
+    assert status == 0, capsys.readouterr().err
+    written = pd.read_csv(out)
+    assert list(written.columns) == [
+        "dim1",
+        "dim2",
+        "variety",
+        "qnx@7",
+        "trustworthiness@7",
+        "continuity@7",
+    ]
+    # Outside reference: sklearn.manifold.trustworthiness on the same columns; continuity is
+    # trustworthiness with the spaces swapped (REFERENCES.md).
+    from sklearn.manifold import trustworthiness
+
+    X = frame.drop(columns=["tree", "variety"]).to_numpy(float)
+    Y = written[["dim1", "dim2"]].to_numpy()
+    assert written["trustworthiness@7"].mean() == pytest.approx(
+        trustworthiness(X, Y, n_neighbors=7), abs=1e-9
+    )
+    assert written["continuity@7"].mean() == pytest.approx(
+        trustworthiness(Y, X, n_neighbors=7), abs=1e-9
+    )
+    assert written["qnx@7"].between(0, 1).all()
+
+
+def test_quality_without_k_uses_ten_and_refuses_npy(orchard, tmp_path, capsys):
+    path, _ = orchard
+    base = ["embed", str(path), "--method", "pca", "--drop", "tree", "--drop", "variety"]
+    out = tmp_path / "q.csv"
+    assert main(base + ["--quality", "--out", str(out)]) == 0
+    assert "trustworthiness@10" in pd.read_csv(out).columns
+    status = main(base + ["--quality", "--out", str(tmp_path / "q.npy")])
+    err = capsys.readouterr().err
+    assert status == 2 and "only a .csv output holds" in err
+    status = main(base + ["--quality", "40", "--out", str(tmp_path / "big.csv")])
+    err = capsys.readouterr().err
+    assert status == 2 and "K < n/2" in err and err.count("\n") == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["orchard.csv", "q.csv"]

@@ -21,6 +21,8 @@ ESTIMATORS = [
     ),
     DiffusionMaps(random_state=0),
     DiffusionMaps(n_neighbors=8, bandwidth="local", alpha=0.5, diffusion_time=2, random_state=0),
+    LaplacianEigenmaps(coordinates="independent", random_state=0),
+    DiffusionMaps(n_neighbors=8, coordinates="independent", random_state=0),
 ]
 
 

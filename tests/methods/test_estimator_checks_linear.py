@@ -17,6 +17,7 @@ ESTIMATORS = [
     KernelPCA(bandwidth="local:3"),
     KernelPCA(kernel="precomputed"),
     KernelPCA(n_landmarks=10, random_state=0),
+    KernelPCA(coordinates="independent", random_state=0),
 ]
 
 

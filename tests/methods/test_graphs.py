@@ -135,6 +135,21 @@ def test_query_of_training_points_reproduces_the_training_graph(points, kind):
         graph = epsilon_distance_graph(points, 1.2)
     else:
         graph = knn_distance_graph(points, 5)
+    _assert_query_reproduces(graph, points, kind)
+
+
+@pytest.mark.parametrize("kind", ["knn", "mutual_knn"])
+def test_a_neighbour_exactly_at_the_radius_is_kept(kind):
+    # On the quick suite's swiss roll (k = 10) a point's 10th neighbour sits exactly at the
+    # radius of the tree's radius search, which rounds it out; a training point passed again
+    # must still get its training row (issue 13: the Nyström extension missed two rows).
+    from lowdim import datasets
+
+    roll = datasets.load({"name": "swiss_roll", "n": 800, "noise": 0.05, "seed": 0})
+    _assert_query_reproduces(knn_distance_graph(roll.X, 10), roll.X, kind)
+
+
+def _assert_query_reproduces(graph, points, kind):
     # distances + 1 so that symmetrize's positive-weight rule keeps every edge
     shifted = graph.distances.copy()
     shifted.data += 1.0

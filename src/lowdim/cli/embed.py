@@ -4,7 +4,8 @@
 a suite's method table is: an unknown parameter suggests the closest name, each value is
 checked against the method's ``_param_specs``, and the method's own fit-time checks follow.
 The output is written to a temporary name in the same folder and renamed, so a failure at any
-step leaves nothing behind.
+step leaves nothing behind. ``--quality [K]`` adds each point's Q_NX(K), trustworthiness and
+continuity terms (:func:`lowdim.metrics.per_point_quality`) as columns of a CSV output.
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ from lowdim.errors import InputError, suggestion
 HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
 
 OUTPUT_FORMATS = (".csv", ".npy")
+DEFAULT_QUALITY_K = 10
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -52,6 +54,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--out", required=True, metavar="OUT", help="where to write: a .csv or .npy file"
+    )
+    parser.add_argument(
+        "--quality",
+        nargs="?",
+        const=DEFAULT_QUALITY_K,
+        default=None,
+        type=int,
+        metavar="K",
+        help="add each point's qnx@K, trustworthiness@K and continuity@K columns to the CSV "
+        f"(K = {DEFAULT_QUALITY_K} when not given; their means are the global criteria)",
     )
 
 
@@ -137,9 +149,17 @@ def _label_values(dataset: Any) -> np.ndarray | None:
 
 
 def write_embedding(
-    path: Path, Y: np.ndarray, labels: np.ndarray | None = None, label_name: str | None = None
+    path: Path,
+    Y: np.ndarray,
+    labels: np.ndarray | None = None,
+    label_name: str | None = None,
+    extra: dict[str, np.ndarray] | None = None,
 ) -> None:
-    """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) atomically, mode 0644."""
+    """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) atomically, mode 0644.
+
+    ``extra`` columns (name -> one value per row, NaN written as an empty cell) follow the
+    coordinates and the labels in a CSV.
+    """
     with atomic_path(path) as temporary, open(temporary, "wb") as fh:
         if path.suffix.lower() == ".npy":
             np.save(fh, Y)
@@ -149,6 +169,8 @@ def write_embedding(
             frame = pd.DataFrame(Y, columns=[f"dim{i + 1}" for i in range(Y.shape[1])])
             if labels is not None:
                 frame[label_name or "label"] = labels
+            for name, values in (extra or {}).items():
+                frame[name] = values
             frame.to_csv(fh, index=False, lineterminator="\n")
 
 
@@ -176,11 +198,38 @@ def _warn(caught: list[warnings.WarningMessage]) -> None:
         print(f"lowdim: warning: {' '.join(str(w.message).split())}", file=sys.stderr)
 
 
+def _check_quality(k: int | None, suffix: str) -> None:
+    if k is None:
+        return
+    if suffix != ".csv":
+        raise InputError(
+            "--quality adds per-point columns, which only a .csv output holds; write to a "
+            ".csv file or leave out --quality"
+        )
+    if k < 1:
+        raise InputError(f"--quality K must be a positive number of neighbours, got {k}")
+
+
+def _quality_columns(X: np.ndarray, Y: np.ndarray, k: int) -> dict[str, np.ndarray]:
+    from lowdim.metrics import per_point_quality
+
+    n = X.shape[0]
+    if k > (n - 1) // 2:
+        raise InputError(
+            f"--quality {k} needs fewer than half the {n} rows as neighbours (trustworthiness "
+            f"and continuity need K < n/2); give --quality {max(1, (n - 1) // 2)} or less"
+        )
+    quality = per_point_quality(X, Y, ks=k)
+    for note in quality.notes:
+        print(f"lowdim: note: {note}; the other rows' quality cells are empty", file=sys.stderr)
+    return quality.columns()
+
+
 def run(args: argparse.Namespace) -> int:
     from lowdim import datasets
 
     out = Path(args.out)
-    _check_output(out)
+    _check_quality(args.quality, _check_output(out))
     params = parse_settings(args.settings)
     if args.n_components is not None:
         if params.get("n_components", args.n_components) != args.n_components:
@@ -211,7 +260,8 @@ def run(args: argparse.Namespace) -> int:
             f"{int(np.size(Y) - np.isfinite(Y).sum())} non-finite values for "
             f"{dataset.n_samples} rows; try other parameters"
         )
-    write_embedding(out, Y, _label_values(dataset), args.labels)
+    extra = None if args.quality is None else _quality_columns(dataset.X, Y, args.quality)
+    write_embedding(out, Y, _label_values(dataset), args.labels, extra)
     if args.labels and out.suffix.lower() == ".npy":
         print(
             f"lowdim: note: a .npy file holds the coordinates only; the labels {args.labels!r} "

@@ -264,6 +264,12 @@ def _coinciding(index: NearestNeighbors, X: np.ndarray) -> tuple[np.ndarray, np.
     return ind[:, 0], dist[:, 0] == 0.0
 
 
+# A radius search may leave out a point at exactly the radius (the tree compares rounded
+# squared distances), which would drop a training point's edge to its k-th neighbour when the
+# point is passed again; the searches and comparisons with a radius allow that much.
+_ROUNDING = 1.0 + 1e-12
+
+
 def query_distance_graph(
     graph: DistanceGraph,
     X: np.ndarray,
@@ -298,18 +304,19 @@ def query_distance_graph(
         dist = np.take_along_axis(dist, take, axis=1)
         ind = np.take_along_axis(ind, take, axis=1)
         if kind == "mutual_knn":
-            keep = dist <= radii[ind]
+            keep = dist <= radii[ind] * _ROUNDING
             rows = np.repeat(np.arange(m), k).reshape(m, k)[keep]
             cols, vals = ind[keep], dist[keep]
         else:
             r_query = dist[:, -1]
             reach = float(max(np.max(r_query, initial=0.0), np.max(radii, initial=0.0)))
+            reach *= _ROUNDING
             near_d, near_i = index.radius_neighbors(X, radius=reach, return_distance=True)
             counts = np.array([len(a) for a in near_i])
             rows = np.repeat(np.arange(m), counts)
             cols = np.concatenate(near_i) if m else np.zeros(0, dtype=np.intp)
             vals = np.concatenate(near_d) if m else np.zeros(0)
-            keep = vals <= np.maximum(r_query[rows], radii[cols])
+            keep = vals <= np.maximum(r_query[rows], radii[cols]) * _ROUNDING
             rows, cols, vals = rows[keep], cols[keep], vals[keep]
     elif kind == "epsilon":
         nearest, same = _coinciding(index, X)

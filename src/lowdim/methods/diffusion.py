@@ -34,6 +34,7 @@ from lowdim.methods._graphs import (
     row_average,
     symmetrize,
 )
+from lowdim.methods._harmonics import COORDINATES, choose_coordinates, examined_count
 from lowdim.methods._kernels import (
     BANDWIDTH_SPECS,
     query_local_scales,
@@ -88,6 +89,12 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         then shift-invert ARPACK, then dense; ``"auto"`` is dense up to 600 points). For the
         dense kernel: ``"arpack"`` uses Lanczos on S, anything else LAPACK's ``eigh`` for
         n <= 600 and Lanczos above.
+    coordinates : {"leading", "independent"}, default="leading"
+        ``"leading"`` keeps the ``n_components`` eigenvectors of largest eigenvalue below 1.
+        ``"independent"`` computes the first m = min(4 x n_components, n_samples - 1) and
+        keeps the ``n_components`` of positive eigenvalue that are least a function of the
+        earlier ones (largest ``eigen_residuals_``; the first is always kept), in eigenvalue
+        order [3]_.
     random_state : int, RandomState or None, default=None
         Seeds the eigen-solver's start vectors and the bandwidth rules' samples.
     n_jobs : int or None, default=None
@@ -101,6 +108,13 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         stationary distribution pi = d / sum(d).
     eigenvalues_ : ndarray of shape (n_components,)
         The Markov eigenvalues lambda_1 >= lambda_2 >= ... of the kept coordinates.
+    eigen_residuals_ : ndarray of shape (m,)
+        For each examined eigenvector (the n_components leading ones, or the first m with
+        ``coordinates="independent"``), the residual of Dsilva et al. [3]_ of its local
+        linear fit on the earlier ones: near 0 for a harmonic, near 1 for a new direction;
+        the first is 1 by convention (see :mod:`lowdim.methods._harmonics`).
+    eigenvector_indices_ : ndarray of int of shape (n_components,)
+        Which examined eigenvectors are the coordinates (0 = psi_1).
     n_components_ : int
     bandwidth_ : float
         The sigma used (the median of the per-point scales for a local rule).
@@ -122,8 +136,10 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
     ``transform`` is the Nyström extension psi_l(x) = (1/lambda_l) sum_j P(x, x_j) psi_l(x_j)
     with P(x, x_j) = k(x, x_j) q_j^-alpha / sum_i k(x, x_i) q_i^-alpha (the new point's own
     q(x)^-alpha cancels); for the sparse kernel a new point's edges follow the training rule
-    (see :func:`lowdim.methods._graphs.query_distance_graph`). It reproduces the training
-    coordinates on the training points.
+    (see :func:`lowdim.methods._graphs.query_distance_graph`), for each kept coordinate. It
+    reproduces the training coordinates on the training points up to the eigen-solver's
+    residual: to a few times 1e-7 of the largest coordinate (the sparse kernel's AMG-LOBPCG is
+    run to a residual of 1e-7 for that reason; Lanczos and the dense solver go further).
 
     References
     ----------
@@ -132,6 +148,10 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
     .. [2] B. Nadler, S. Lafon, R. R. Coifman and I. G. Kevrekidis, "Diffusion maps, spectral
        clustering and reaction coordinates of dynamical systems", Applied and Computational
        Harmonic Analysis 21 (2006), 113-127. https://doi.org/10.1016/j.acha.2005.07.004
+    .. [3] C. J. Dsilva, R. Talmon, R. R. Coifman and I. G. Kevrekidis, "Parsimonious
+       representation of nonlinear dynamical systems through manifold learning: a chemotaxis
+       case study", Applied and Computational Harmonic Analysis 44 (2018), 759-773.
+       https://doi.org/10.1016/j.acha.2015.06.008
 
     Examples
     --------
@@ -151,6 +171,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         "diffusion_time": [Interval(int, 0, None)],
         "on_disconnected": [Options(ON_DISCONNECTED)],
         "eigen_solver": [Options(LAPLACIAN_SOLVERS)],
+        "coordinates": [Options(COORDINATES)],
         "random_state": RANDOM_STATE,
         "n_jobs": [NONE, Interval(int, -1, None)],
     }
@@ -166,6 +187,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         diffusion_time: int = 1,
         on_disconnected: str = "warn",
         eigen_solver: str = "auto",
+        coordinates: str = "leading",
         random_state=None,
         n_jobs: int | None = None,
     ):
@@ -176,6 +198,7 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         self.diffusion_time = diffusion_time
         self.on_disconnected = on_disconnected
         self.eigen_solver = eigen_solver
+        self.coordinates = coordinates
         self.random_state = random_state
         self.n_jobs = n_jobs
 
@@ -242,6 +265,8 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
     def _solve(self, X_fit, K, graph, bw, rng) -> np.ndarray:
         alpha = float(self.alpha)
         m = self.n_components
+        coordinates = self.coordinates.lower()
+        examined = examined_count(coordinates, m, X_fit.shape[0] - 1)
         q = np.asarray(K.sum(axis=1)).ravel()
         scale = q**-alpha
         if graph is None:
@@ -253,14 +278,14 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         if graph is None:
             S = K_alpha / np.multiply.outer(root, root)
             solver = "arpack" if self.eigen_solver.lower() == "arpack" else "auto"
-            result = top_eigenpairs(S, m + 1, solver=solver, random_state=rng)
+            result = top_eigenpairs(S, examined + 1, solver=solver, random_state=rng)
             values, vectors, used = result.values, result.vectors, result.solver
         else:
             S = scipy.sparse.diags(1.0 / root) @ K_alpha @ scipy.sparse.diags(1.0 / root)
             L = scipy.sparse.identity(S.shape[0], format="csr") - S
             result = smallest_laplacian_eigenpairs(
                 L,
-                m + 1,
+                examined + 1,
                 null_vector=root,
                 solver=self.eigen_solver.lower(),
                 random_state=rng,
@@ -269,7 +294,12 @@ class DiffusionMaps(TransformerMixin, BaseEstimator):
         # psi = D^-1/2 V scaled so that psi_0 = 1: psi_l = v_l / v_0 with v_0 = sqrt(d)/|sqrt(d)|
         psi = vectors[:, 1:] * (np.linalg.norm(root) / root)[:, None]
         psi = fix_signs(np.ascontiguousarray(psi))
-        self.eigenvalues_ = values[1:]
+        keep, self.eigen_residuals_ = choose_coordinates(
+            psi, coordinates, m, usable=values[1:] > 0, random_state=rng
+        )
+        psi = np.ascontiguousarray(psi[:, keep])
+        self.eigenvector_indices_ = keep
+        self.eigenvalues_ = values[1:][keep]
         self.n_components_ = m
         self.solver_ = used
         self.bandwidth_ = bw.sigma

@@ -21,6 +21,7 @@ from lowdim._validation import (
 )
 from lowdim.errors import InputError
 from lowdim.methods._eigen import DENSE_LIMIT, top_eigenpairs
+from lowdim.methods._harmonics import COORDINATES, choose_coordinates, examined_count
 from lowdim.methods._kernels import (
     BANDWIDTH_SPECS,
     KERNELS,
@@ -100,6 +101,12 @@ default="rbf"
     solver : {"auto", "dense", "arpack", "randomized"}, default="auto"
         Eigen-solver for the exact centred kernel
         (see :func:`lowdim.methods._eigen.top_eigenpairs`).
+    coordinates : {"leading", "independent"}, default="leading"
+        ``"leading"`` keeps the ``n_components`` components of largest eigenvalue.
+        ``"independent"`` computes the first m = min(4 x n_components, n_samples - 1) (at
+        most the landmark kernel's rank with ``n_landmarks``) and keeps the ``n_components``
+        of positive eigenvalue that are least a function of the earlier ones (largest
+        ``eigen_residuals_``; the first is always kept), in eigenvalue order [3]_.
     random_state : int, RandomState or None, default=None
         Seeds the landmarks, the eigen-solver's start and the bandwidth rules' samples.
 
@@ -108,7 +115,15 @@ default="rbf"
     embedding_ : ndarray of shape (n_samples, n_components)
         Scores of the training points, sqrt(mu) v.
     eigenvalues_ : ndarray of shape (n_components,)
-        Top eigenvalues mu of the centred kernel matrix (tiny negatives from rounding set to 0).
+        Eigenvalues mu of the centred kernel matrix of the kept components (tiny negatives from
+        rounding set to 0).
+    eigen_residuals_ : ndarray of shape (m,)
+        For each examined eigenvector (the n_components leading ones, or the first m with
+        ``coordinates="independent"``), the residual of Dsilva et al. [3]_ of its local
+        linear fit on the earlier ones: near 0 for a harmonic, near 1 for a new direction;
+        the first is 1 by convention (see :mod:`lowdim.methods._harmonics`).
+    eigenvector_indices_ : ndarray of int of shape (n_components,)
+        Which examined eigenvectors are the components (0 = the first).
     bandwidth_ : float or None
         sigma used by the rbf or laplacian kernel (the median of the per-point scales for a
         local rule; from gamma when gamma is set), None for the other kernels.
@@ -136,6 +151,10 @@ default="rbf"
        https://doi.org/10.1162/089976698300017467
     .. [2] C. K. I. Williams and M. Seeger, "Using the Nyström method to speed up kernel
        machines", Advances in Neural Information Processing Systems 13 (2001), 682-688.
+    .. [3] C. J. Dsilva, R. Talmon, R. R. Coifman and I. G. Kevrekidis, "Parsimonious
+       representation of nonlinear dynamical systems through manifold learning: a chemotaxis
+       case study", Applied and Computational Harmonic Analysis 44 (2018), 759-773.
+       https://doi.org/10.1016/j.acha.2015.06.008
 
     Examples
     --------
@@ -154,6 +173,7 @@ default="rbf"
         "coef0": [Interval(float, None, None)],
         "n_landmarks": [NONE, Interval(int, 2, "n_samples")],
         "solver": [Options(("auto", "dense", "arpack", "randomized"))],
+        "coordinates": [Options(COORDINATES)],
         "random_state": RANDOM_STATE,
     }
     _reference = "Schölkopf, Smola & Müller, Neural Computation 10, 1998"
@@ -169,6 +189,7 @@ default="rbf"
         coef0=1.0,
         n_landmarks=None,
         solver="auto",
+        coordinates="leading",
         random_state=None,
     ):
         self.n_components = n_components
@@ -179,6 +200,7 @@ default="rbf"
         self.coef0 = coef0
         self.n_landmarks = n_landmarks
         self.solver = solver
+        self.coordinates = coordinates
         self.random_state = random_state
 
     def __sklearn_tags__(self):
@@ -274,8 +296,18 @@ default="rbf"
         self.n_components_ = k
         return self
 
+    def _keep(self, vectors, values, rng) -> np.ndarray:
+        """Residuals of the examined eigenvectors and the columns to keep (fitted here)."""
+        positive = values > 1e-10 * max(float(values[0]), np.finfo(float).tiny)
+        keep, self.eigen_residuals_ = choose_coordinates(
+            vectors, self.coordinates.lower(), self.n_components, usable=positive, random_state=rng
+        )
+        self.eigenvector_indices_ = keep
+        return keep
+
     def _fit_exact(self, X, k, rng):
         n = X.shape[0]
+        k = examined_count(self.coordinates.lower(), k, n - 1)
         solver = self.solver.lower()
         if solver == "auto":
             solver = "dense" if n <= DENSE_LIMIT or 5 * k > n else "arpack"
@@ -307,11 +339,13 @@ default="rbf"
             operator = K
         top = top_eigenpairs(operator, k, solver=solver, random_state=rng, tol=ARPACK_TOL)
         values = self._checked_spectrum(K, top.values, rng)
+        keep = self._keep(top.vectors, values, rng)
+        values, vectors = values[keep], top.vectors[:, keep]
         root = np.sqrt(values)
         self._column_means = column_means
         self._grand_mean = grand
-        self._alphas = top.vectors * np.divide(1.0, root, out=np.zeros_like(root), where=root > 0)
-        self.embedding_ = top.vectors * root
+        self._alphas = vectors * np.divide(1.0, root, out=np.zeros_like(root), where=root > 0)
+        self.embedding_ = vectors * root
         self.eigenvalues_ = values
         self.solver_ = top.solver
 
@@ -368,6 +402,7 @@ default="rbf"
                 f"the parameter `n_landmarks` of `{type(self).__name__}` gives a landmark kernel "
                 f"of rank {r}, below n_components = {k}; use more landmarks"
             )
+        k = examined_count(self.coordinates.lower(), k, r)
         total = np.zeros(r)
         scatter = np.zeros((r, r))
         for _, Phi in self._nystrom_blocks(X, train=True):
@@ -386,8 +421,12 @@ default="rbf"
         flip = np.sign(scores[np.argmax(np.abs(scores), axis=0), np.arange(k)])
         flip[flip == 0] = 1.0
         self._nystrom_axes *= flip
-        self.embedding_ = scores * flip
-        self.eigenvalues_ = np.clip(mu, 0.0, None)
+        scores *= flip
+        mu = np.clip(mu, 0.0, None)
+        keep = self._keep(scores, mu, rng)
+        self._nystrom_axes = self._nystrom_axes[:, keep]
+        self.embedding_ = np.ascontiguousarray(scores[:, keep])
+        self.eigenvalues_ = mu[keep]
         self.solver_ = "nystrom"
 
     def _nystrom_blocks(self, X, *, train):

@@ -35,6 +35,7 @@ from lowdim.methods._graphs import (
     row_average,
     symmetrize,
 )
+from lowdim.methods._harmonics import COORDINATES, choose_coordinates, examined_count
 from lowdim.methods._kernels import (
     BANDWIDTH_SPECS,
     query_local_scales,
@@ -88,6 +89,13 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
     eigen_solver : {"auto", "amg", "arpack", "dense"}, default="auto"
         Where the solver chain starts (AMG-preconditioned LOBPCG, then shift-invert ARPACK,
         then dense for small n); ``"auto"`` is dense up to 600 points and AMG above.
+    coordinates : {"leading", "independent"}, default="leading"
+        ``"leading"`` embeds with the ``n_components`` eigenvectors of smallest non-zero
+        eigenvalue. ``"independent"`` computes the first m = min(4 x n_components,
+        n_samples - 1) and keeps the ``n_components`` that are least a function of the
+        earlier ones (largest ``eigen_residuals_``; the first is always kept), in eigenvalue
+        order: on a long thin sheet the leading ones are harmonics of its long side and
+        draw a curve [3]_.
     random_state : int, RandomState or None, default=None
         Seeds the eigen-solver's start vectors and the bandwidth rules' samples.
     n_jobs : int or None, default=None
@@ -99,6 +107,13 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         The training points' coordinates, signs fixed (largest-magnitude entry positive).
     eigenvalues_ : ndarray of shape (n_components,)
         The Laplacian eigenvalues of the kept coordinates, ascending (the 0 dropped).
+    eigen_residuals_ : ndarray of shape (m,)
+        For each examined eigenvector (the n_components leading ones, or the first m with
+        ``coordinates="independent"``), the residual of Dsilva et al. [3]_ of its local
+        linear fit on the earlier ones: near 0 for a harmonic, near 1 for a new direction;
+        the first is 1 by convention (see :mod:`lowdim.methods._harmonics`).
+    eigenvector_indices_ : ndarray of int of shape (n_components,)
+        Which examined eigenvectors are the coordinates (0 = the first non-constant one).
     n_components_ : int
     n_neighbors_ : int
         The number of neighbours used.
@@ -133,7 +148,10 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
     - unnormalized: f(x) = sum_j w_j f_j / (d_x - lambda), and the plain weighted average
       where d_x <= lambda (a point too weakly joined for the formula);
 
-    which reproduce the training coordinates exactly on the training points.
+    for each kept eigenpair (lambda, f) (the chosen ones with ``coordinates="independent"``).
+    On the training points these give the training coordinates back up to the eigen-solver's
+    residual: exactly for the dense solver, to a few times 1e-7 of the largest coordinate for
+    AMG-LOBPCG, which is run to a residual of 1e-7 for that reason.
 
     References
     ----------
@@ -142,6 +160,10 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
        https://doi.org/10.1162/089976603321780317
     .. [2] U. von Luxburg, "A tutorial on spectral clustering", Statistics and Computing 17
        (2007), 395-416. https://doi.org/10.1007/s11222-007-9033-z
+    .. [3] C. J. Dsilva, R. Talmon, R. R. Coifman and I. G. Kevrekidis, "Parsimonious
+       representation of nonlinear dynamical systems through manifold learning: a chemotaxis
+       case study", Applied and Computational Harmonic Analysis 44 (2018), 759-773.
+       https://doi.org/10.1016/j.acha.2015.06.008
 
     Examples
     --------
@@ -163,6 +185,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         "normalization": [Options(NORMALIZATIONS)],
         "on_disconnected": [Options(ON_DISCONNECTED)],
         "eigen_solver": [Options(LAPLACIAN_SOLVERS)],
+        "coordinates": [Options(COORDINATES)],
         "random_state": RANDOM_STATE,
         "n_jobs": [NONE, Interval(int, -1, None)],
     }
@@ -180,6 +203,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         normalization: str = "random_walk",
         on_disconnected: str = "warn",
         eigen_solver: str = "auto",
+        coordinates: str = "leading",
         random_state=None,
         n_jobs: int | None = None,
     ):
@@ -192,6 +216,7 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         self.normalization = normalization
         self.on_disconnected = on_disconnected
         self.eigen_solver = eigen_solver
+        self.coordinates = coordinates
         self.random_state = random_state
         self.n_jobs = n_jobs
 
@@ -289,14 +314,19 @@ class LaplacianEigenmaps(TransformerMixin, BaseEstimator):
         normalization = self.normalization.lower()
         L, degree, null = laplacian(W, normalization)
         m = self.n_components
+        coordinates = self.coordinates.lower()
+        examined = examined_count(coordinates, m, X_fit.shape[0] - 1)
         result = smallest_laplacian_eigenpairs(
-            L, m + 1, null_vector=null, solver=self.eigen_solver.lower(), random_state=rng
+            L, examined + 1, null_vector=null, solver=self.eigen_solver.lower(), random_state=rng
         )
         values, vectors = result.values[1:], result.vectors[:, 1:]
         if normalization == "random_walk":
             vectors = vectors / np.sqrt(degree)[:, None]
-        self.embedding_ = fix_signs(np.ascontiguousarray(vectors))
-        self.eigenvalues_ = values
+        vectors = fix_signs(np.ascontiguousarray(vectors))
+        keep, self.eigen_residuals_ = choose_coordinates(vectors, coordinates, m, random_state=rng)
+        self.eigenvector_indices_ = keep
+        self.embedding_ = np.ascontiguousarray(vectors[:, keep])
+        self.eigenvalues_ = values[keep]
         self.n_components_ = m
         self.solver_ = result.solver
         self.bandwidth_ = None if bw is None else bw.sigma

@@ -18,11 +18,13 @@ from lowdim.metrics.coranking import lcmc, qnx, rnx, rnx_auc
 from lowdim.metrics.distances import StressParts, distance_spearman, stress, stress_parts
 from lowdim.metrics.labels import knn_accuracy, silhouette
 from lowdim.metrics.neighbourhood import continuity, knn_recall, trustworthiness
+from lowdim.metrics.per_point import PointScores, per_point_quality
 from lowdim.metrics.recorded import fit_seconds, peak_mb
 from lowdim.metrics.truth import truth_procrustes, truth_spearman
 
 __all__ = [
     "Metric",
+    "PointScores",
     "Scores",
     "StressParts",
     "default_headline",
@@ -30,6 +32,7 @@ __all__ = [
     "metric_names",
     "register_metric",
     "score_embedding",
+    "per_point_quality",
     "trustworthiness",
     "continuity",
     "qnx",

@@ -37,6 +37,7 @@ from lowdim.metrics.distances import (
 )
 from lowdim.metrics.labels import check_classes, knn_accuracy_at, silhouette_estimate
 from lowdim.metrics.neighbourhood import continuity_at, knn_recall_at, trustworthiness_at
+from lowdim.metrics.per_point import per_point_at, per_point_ks
 from lowdim.metrics.truth import procrustes_disparity, procrustes_mismatch
 
 __all__ = ["Scores", "score_embedding", "RNX_CURVE_MAX"]
@@ -66,12 +67,22 @@ class Scores:
         Query points used by the sampled criteria; None when every criterion is exact.
     standard_errors : dict
         ``(metric, k) -> standard error`` of each sampled estimate.
+    per_point : dict
+        With ``per_point_k``: ``(metric, k) -> ndarray`` of per-point Q_NX, trustworthiness
+        and continuity terms (metric ``"qnx"``, ``"trustworthiness"``, ``"continuity"``),
+        aligned with ``per_point_rows``; their mean is the global value (see
+        :mod:`lowdim.metrics.per_point`). Empty otherwise.
+    per_point_rows : ndarray of int or None
+        The rows the per-point values belong to: every row in order when trustworthiness is
+        exact, else the sampled query rows. None when no per-point values were asked for.
     """
 
     values: list[tuple[str, int, float]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     sample_size: int | None = None
     standard_errors: dict[tuple[str, int], float] = field(default_factory=dict)
+    per_point: dict[tuple[str, int], np.ndarray] = field(default_factory=dict)
+    per_point_rows: np.ndarray | None = None
 
     def get(self, metric: str, k: int = 0) -> float:
         """The value of ``metric`` at ``k``; KeyError when it was not computed."""
@@ -230,6 +241,7 @@ def score_embedding(
     sample_size: int = SAMPLE_SIZE,
     pair_points: int = PAIR_POINTS,
     rnx_curve_max: int = RNX_CURVE_MAX,
+    per_point_k: int | Sequence[int] | None = None,
 ) -> Scores:
     """Compute the requested criteria of embedding Y of X, sharing one neighbour computation.
 
@@ -268,6 +280,10 @@ def score_embedding(
         pairs among this many random points.
     rnx_curve_max : int, default=128
         Largest K of the log grid on which ``rnx`` is also reported.
+    per_point_k : int or sequence of int, default=None
+        Also keep each point's Q_NX(K), trustworthiness and continuity terms at these K, in
+        ``Scores.per_point`` (whatever ``metrics`` says), for the same query rows as the
+        sampled criteria. None (the default) computes none.
 
     Returns
     -------
@@ -297,6 +313,11 @@ def score_embedding(
         grid = rnx_grid(min(n - 2, rnx_curve_max))
         per_metric["rnx"] = sorted(set(per_metric["rnx"]) | set(grid))
     listed = [k for name, values in per_metric.items() if name in _BUILT_IN for k in values]
+    point_ks: dict[str, list[int]] = {}
+    if per_point_k is not None:
+        point_ks, point_notes = per_point_ks(per_point_k, n)
+        notes.extend(point_notes)
+        listed += [k for values in point_ks.values() for k in values]
     rows = sample_rows(n, exact_threshold, sample_size, random_state)
     full_rows = sample_rows(n, full_rank_threshold, sample_size, random_state)
     ctx = Neighbourhoods(X, Y, k_lists=max(listed, default=1), rows=rows, full_rows=full_rows)
@@ -312,6 +333,8 @@ def score_embedding(
         raw_truth=truth,
     )
     scores = Scores(notes=notes)
+    if per_point_k is not None:
+        _per_point(scores, ctx, point_ks, per_metric)
     skipped: dict[str, list[str]] = {}
     for metric in chosen:
         if metric.uses_k and not per_metric[metric.name]:
@@ -344,6 +367,24 @@ def score_embedding(
             )
     _note_pairs(scores, done, job.subset, n, pair_points, random_state)
     return scores
+
+
+def _per_point(
+    scores: Scores,
+    ctx: Neighbourhoods,
+    point_ks: dict[str, list[int]],
+    per_metric: dict[str, list[int]],
+) -> None:
+    # Ranks once, to the largest K the global and the per-point terms need.
+    for name, ranks in (("trustworthiness", ctx.ranks_in_x), ("continuity", ctx.ranks_in_y)):
+        if point_ks.get(name):
+            ranks(max(point_ks[name] + per_metric.get(name, [])))
+    scores.per_point = per_point_at(ctx, point_ks)
+    scores.per_point_rows = ctx.rows
+    if ctx.sampled:
+        scores.notes.append(
+            f"per-point values at the {ctx.rows.size} query rows of the sampled criteria"
+        )
 
 
 def _note_pairs(

@@ -35,6 +35,7 @@ __all__ = [
     "continuity_at",
     "knn_recall_at",
     "tc_k_max",
+    "penalised_terms",
 ]
 
 VENNA_KASKI = "Venna & Kaski, ICANN 2001; Neural Networks 19, 2006"
@@ -46,19 +47,21 @@ def tc_k_max(n: int) -> int:
     return (n - 1) // 2
 
 
+def penalised_terms(ranks: np.ndarray, n: int, k: int) -> np.ndarray:
+    """Each row's term of T(k) or C(k), scaled so that their mean over all rows is the value.
+
+    T(k) = 1 - A sum_i sum_{j in U_k(i)} (r(i, j) - k), A = 2 / (n k (2n - 3k - 1)), is the
+    mean of t_i = 1 - n A sum_j max(0, r(i, j) - k) over the rows; ``ranks[:, :k]`` are the
+    ranks in one space of each row's k nearest in the other (X for T, Y for C).
+    """
+    excess = np.maximum(ranks[:, :k] - k, 0).sum(axis=1)
+    return 1.0 - excess * (2.0 / (k * (2.0 * n - 3.0 * k - 1.0)))
+
+
 def _penalised(ctx: Neighbourhoods, ranks: np.ndarray, ks: Iterable[int]) -> dict[int, Estimate]:
-    # T(k) = 1 - A sum_i sum_{j in N_k(i)} max(0, r(i, j) - k); the same for C with the spaces
-    # swapped. ranks[:, :k] are the ranks of each row's k nearest in the other space.
-    n = ctx.n
-    out = {}
-    for k in ks:
-        excess = np.maximum(ranks[:, :k] - k, 0).sum(axis=1)
-        scale = 2.0 / (n * k * (2.0 * n - 3.0 * k - 1.0))
-        if ctx.sampled:
-            out[k] = ctx.mean_and_error(1.0 - scale * n * excess, sampled=True)
-        else:
-            out[k] = Estimate(1.0 - float(excess.sum()) * scale)
-    return out
+    return {
+        k: ctx.mean_and_error(penalised_terms(ranks, ctx.n, k), sampled=ctx.sampled) for k in ks
+    }
 
 
 def trustworthiness_at(ctx: Neighbourhoods, ks: Iterable[int]) -> dict[int, Estimate]:
