@@ -2,10 +2,12 @@
 
 import json
 import re
+import shlex
 import subprocess
 import sys
 import textwrap
 
+import pandas as pd
 import pytest
 from compare_data import proofing_cabinet
 
@@ -50,10 +52,14 @@ def test_compare_end_to_end_with_a_plugin(cabinet, tmp_path):
     )
     assert listed.returncode == 0, listed.stderr
     assert "first_two_readings" in listed.stdout
+    frame = pd.read_csv(cabinet)
+    frame.insert(0, "batch_id", [f"B{i:03d}" for i in range(len(frame))])
+    frame.to_csv(cabinet, index=False)
     out = tmp_path / "results"
     proc = subprocess.run(
         [sys.executable, "-m", "lowdim", "compare", str(cabinet), "--quick", "--quiet"]
-        + ["--drop", "stage", "--plugin", str(plugin), "--out", str(out), "--jobs", "2"],
+        + ["--drop", "stage", "--keep", "batch_id", "--plugin", str(plugin)]
+        + ["--out", str(out), "--jobs", "2"],
         capture_output=True,
         text=True,
         timeout=300,
@@ -88,3 +94,18 @@ def test_compare_end_to_end_with_a_plugin(cabinet, tmp_path):
     verdict = html.index('<p class="verdict">')
     assert html[verdict:].startswith(f'<p class="verdict">{winner}')
     assert "first in" in html
+    # The printed command embeds the whole file with the winner and keeps the id column.
+    command = text.split("To embed the whole file with it:")[1].split("report:")[0].strip()
+    argv = shlex.split(command)
+    assert argv[:2] == ["lowdim", "embed"] and "--keep" in argv
+    target = tmp_path / "embedded.csv"
+    argv[argv.index("--out") + 1] = str(target)
+    if "first_two_readings" in argv:
+        argv += ["--plugin", str(plugin)]
+    done = subprocess.run(
+        [sys.executable, "-m", "lowdim", *argv[1:]], capture_output=True, text=True, timeout=120
+    )
+    assert done.returncode == 0, done.stderr
+    embedded = pd.read_csv(target)
+    assert list(embedded["batch_id"]) == list(frame["batch_id"])
+    assert {"dim1", "dim2"} <= set(embedded.columns)

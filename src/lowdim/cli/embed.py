@@ -53,6 +53,30 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--drop", action="append", default=[], metavar="COL", help="a column to leave out"
     )
     parser.add_argument(
+        "--features",
+        action="append",
+        default=[],
+        metavar="COL",
+        help="a column to use as a feature (repeatable; default: every other numeric column)",
+    )
+    parser.add_argument(
+        "--keep",
+        action="append",
+        default=[],
+        metavar="COL",
+        help="a column (an id) copied into the CSV output row for row, never used as a feature",
+    )
+    parser.add_argument("--log1p", action="store_true", help="replace each value x by log(1 + x)")
+    parser.add_argument(
+        "--scale",
+        choices=("none", "standard", "robust", "minmax"),
+        default="none",
+        help="column scaling after log1p (default: none)",
+    )
+    parser.add_argument(
+        "--pca-first", type=int, metavar="N", help="keep the first N principal components"
+    )
+    parser.add_argument(
         "--out", required=True, metavar="OUT", help="where to write: a .csv or .npy file"
     )
     parser.add_argument(
@@ -154,11 +178,13 @@ def write_embedding(
     labels: np.ndarray | None = None,
     label_name: str | None = None,
     extra: dict[str, np.ndarray] | None = None,
+    leading: dict[str, list] | None = None,
 ) -> None:
     """Write ``Y`` to ``path`` (CSV with ``dim1, dim2, ...`` or NPY) atomically, mode 0644.
 
-    ``extra`` columns (name -> one value per row, NaN written as an empty cell) follow the
-    coordinates and the labels in a CSV.
+    ``leading`` columns (the ``--keep`` ids) come first in a CSV, so the rows can be joined
+    back to the file's; ``extra`` columns (name -> one value per row, NaN written as an empty
+    cell) follow the coordinates and the labels.
     """
     with atomic_path(path) as temporary, open(temporary, "wb") as fh:
         if path.suffix.lower() == ".npy":
@@ -167,6 +193,8 @@ def write_embedding(
             import pandas as pd
 
             frame = pd.DataFrame(Y, columns=[f"dim{i + 1}" for i in range(Y.shape[1])])
+            for position, (name, values) in enumerate((leading or {}).items()):
+                frame.insert(position, name, values)
             if labels is not None:
                 frame[label_name or "label"] = labels
             for name, values in (extra or {}).items():
@@ -244,11 +272,27 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(
             f"data file {args.file!r} not found; give the path to a data file"
         ) from None
+    if args.pca_first is not None and args.pca_first < 1:
+        raise InputError(
+            f"--pca-first must be a positive number of components, got {args.pca_first}"
+        )
+    if args.keep and out.suffix.lower() == ".npy":
+        raise InputError(
+            "--keep copies columns into the output, which only a .csv output holds; write to a "
+            ".csv file or leave out --keep"
+        )
     spec: dict[str, Any] = {"file": args.file}
     if args.labels:
         spec["labels"] = args.labels
-    if args.drop:
-        spec["drop"] = list(args.drop)
+    for key in ("drop", "features", "keep"):
+        if getattr(args, key):
+            spec[key] = list(getattr(args, key))
+    if args.scale != "none":
+        spec["scale"] = args.scale
+    if args.log1p:
+        spec["log1p"] = True
+    if args.pca_first is not None:
+        spec["pca_first"] = args.pca_first
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         dataset = datasets.load(spec)
@@ -261,7 +305,8 @@ def run(args: argparse.Namespace) -> int:
             f"{dataset.n_samples} rows; try other parameters"
         )
     extra = None if args.quality is None else _quality_columns(dataset.X, Y, args.quality)
-    write_embedding(out, Y, _label_values(dataset), args.labels, extra)
+    kept = dataset.meta.get("kept") or None
+    write_embedding(out, Y, _label_values(dataset), args.labels, extra, kept)
     if args.labels and out.suffix.lower() == ".npy":
         print(
             f"lowdim: note: a .npy file holds the coordinates only; the labels {args.labels!r} "
