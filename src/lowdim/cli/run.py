@@ -8,6 +8,7 @@ from pathlib import Path
 
 from lowdim.analysis.engine import analyse_folder
 from lowdim.cli.paths import check_out_folder
+from lowdim.errors import InputError
 from lowdim.report import build_report
 from lowdim.report.build import write_tables
 from lowdim.report.text import run_summary
@@ -62,6 +63,12 @@ def summary_line(summary: RunSummary) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.scheduler:
+        if args.backend != "dask":
+            raise InputError("--scheduler is for the dask backend; add --backend dask")
+        from lowdim.run.cluster import check_scheduler
+
+        check_scheduler(args.scheduler)  # before the suite: a dead address is told at once
     suite = load_suite(args.suite)
     out_dir = check_out_folder(Path(args.out) if args.out else Path("results") / suite.name)
     summary = run_suite(

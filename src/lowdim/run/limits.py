@@ -3,42 +3,53 @@
 Why a child process: a method can hang inside compiled code (an eigensolver that never
 converges, a BLAS call on a huge matrix) where no Python-level timer can interrupt it. Only
 another process can stop it, with SIGKILL. Each job therefore runs in a fresh child; its parent
-(a joblib worker, or the driver itself with ``--jobs 1``) waits for the result and kills the
-child when a limit is passed.
+waits for the result and kills the child when a limit is passed.
 
 How the limits work:
 
 - Time: the parent polls the child's pipe until ``timeout`` seconds of wall-clock time have
-  passed, then kills the child (status ``timeout``).
-- Memory, two guards. (1) The parent reads the child's resident set size with psutil every
-  50 ms and kills the child once it passes ``memory_limit`` (status ``memory``); this is the
-  limit a user means, resident memory. (2) The child caps its own address space with
-  ``setrlimit(RLIMIT_AS)`` at its address space at start plus ``memory_limit``, so an
-  allocation too large to be caught between two polls fails at once with a ``MemoryError``
-  (also status ``memory``) instead of driving the machine into swap.
-- Orphans: the child asks the kernel (``prctl(PR_SET_PDEATHSIG)``) to be killed when the process
-  that forked it dies; a child of the fork server (whose parent is the server, not the waiting
-  process) also runs a thread that exits when the waiting process is gone. The waiting parent
-  kills the child and stops when the driver that owns the run dies, so killing a run with
-  SIGKILL leaves no job running on.
+  passed since the child was ready, then kills it (status ``timeout``).
+- Memory means what the job's work adds on top of a job process at rest. The child reports
+  ready once it runs (a forked process already holds the interpreter, numpy, scikit-learn and
+  lowdim: about 120 MB resident); that resident size is the baseline. (1) The parent reads the
+  child's resident set size every 50 ms and kills it once it exceeds the baseline by more than
+  ``memory_limit`` (status ``memory``). (2) The child caps its own address space with
+  ``setrlimit(RLIMIT_AS)`` at its address space when ready plus ``memory_limit`` plus
+  :data:`ADDRESS_HEADROOM` (native libraries reserve address space they never touch: thread
+  stacks, malloc arenas, BLAS buffers), so one allocation far too large to be caught between
+  two polls fails at once instead of driving the machine into swap. A failed allocation is
+  status ``memory`` whether Python raises ``MemoryError`` or a native library gives up and ends
+  the process (its last words on stderr, e.g. OpenBLAS's "Memory allocation still failed",
+  tell which).
+- Process group: the child leads a process group of its own, and the parent ends the whole
+  group (SIGKILL) when the job ends, however it ends; so no process that a method starts (its
+  own subprocesses, forked helpers) outlives its job, unless it deliberately leaves the group.
+- Orphans: the child asks the kernel (``prctl(PR_SET_PDEATHSIG)``) to be killed when the
+  process that forked it dies, and the waiting parent stops when the driver that owns the run
+  dies (``watch_pid``), so killing a run with SIGKILL leaves no job running on.
 
-How children are made: a parent with a single thread (a loky worker) forks the child
-directly, which is cheapest since the child inherits every imported module. A parent that runs
-threads (a dask worker, the driver with tqdm's monitor thread) must not fork, since a lock held
-by another thread would stay locked in the child for ever; it uses a ``forkserver`` instead, a
-clean single-threaded process that imports numpy, scikit-learn and lowdim once and then forks
-one child per job.
+How children are made: a parent with a single thread that is not a daemon (a loky worker)
+forks the child directly, which is cheapest since the child inherits every imported module.
+A parent that runs threads (a dask worker, the driver with tqdm's monitor thread) must not
+fork, since a lock held by another thread would stay locked in the child for ever, and a
+daemonic process (every dask worker process) may not have multiprocessing children at all. Such
+a parent hands the job to a *job host* (:mod:`lowdim.run.jobhost`): a clean single-threaded
+interpreter started with :mod:`subprocess`, which imports numpy, scikit-learn and lowdim once
+and then forks one limited child per job, exactly as above.
 """
 
 from __future__ import annotations
 
+import contextlib
 import ctypes
 import functools
 import importlib
 import multiprocessing as mp
 import os
+import re
 import resource
 import signal
+import tempfile
 import threading
 import time
 import traceback
@@ -48,10 +59,10 @@ from typing import Any
 
 import psutil
 
-__all__ = ["Outcome", "run_limited", "START_METHOD", "PRELOAD"]
+__all__ = ["Outcome", "run_limited", "START_METHOD", "PRELOAD", "ADDRESS_HEADROOM"]
 
-# "auto": fork from a single-threaded parent, the fork server otherwise; "fork" and "forkserver"
-# force one (in-process tests use "fork" to hand fakes to the child).
+# "auto": fork from a single-threaded, non-daemonic parent, else go through a job host;
+# "fork" and "host" force one (in-process tests use "fork" to hand fakes to the child).
 START_METHOD = "auto"
 PRELOAD = [
     "numpy",
@@ -66,10 +77,21 @@ PRELOAD = [
     "lowdim.datasets",
     "lowdim.metrics",
 ]
+# Address space a job may reserve beyond its memory limit before an allocation fails outright.
+ADDRESS_HEADROOM = 2**30
 _POLL = 0.05
 _READY = "ready"
 _START_GRACE = 300.0
 _PR_SET_PDEATHSIG = 1
+_STDERR_TAIL = 4096
+# What native libraries print when an allocation fails (OpenBLAS, glibc, C++ runtimes, Fortran).
+_ALLOCATION_FAILED = re.compile(
+    r"memory allocation|allocation (still )?failed|cannot allocate memory|out of memory|"
+    r"bad_alloc|MemoryError|insufficient (virtual )?memory|failed to allocate|mmap failed",
+    re.IGNORECASE,
+)
+# File descriptors the child must not keep (a job host's channel to its caller).
+CLOSE_IN_CHILD: list[int] = []
 
 
 @dataclass(frozen=True)
@@ -85,7 +107,8 @@ class Outcome:
     abandoned: bool = False
 
 
-def _die_with_parent() -> None:
+def die_with_parent() -> None:
+    """Ask the kernel to SIGKILL this process when the thread that started it exits (Linux)."""
     try:
         libc = ctypes.CDLL("libc.so.6", use_errno=True)
         libc.prctl(_PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
@@ -97,38 +120,41 @@ def _cap_address_space(memory_limit: int | None) -> None:
     if memory_limit is None:
         return
     current = psutil.Process().memory_info().vms
-    cap = current + memory_limit
+    cap = current + memory_limit + ADDRESS_HEADROOM
     _, hard = resource.getrlimit(resource.RLIMIT_AS)
     if hard != resource.RLIM_INFINITY:
         cap = min(cap, hard)
     resource.setrlimit(resource.RLIMIT_AS, (cap, hard))
 
 
-def _watch_waiter(waiter: int) -> None:
-    """Exit when the waiting parent dies (a fork server's child outlives it otherwise)."""
+def _quiet_standard_streams(stderr_fd: int) -> None:
+    """Point stdin at /dev/null and stdout, stderr at the parent's capture file."""
+    for fd in CLOSE_IN_CHILD:
+        with contextlib.suppress(OSError):
+            os.close(fd)
+    null = os.open(os.devnull, os.O_RDONLY)
+    os.dup2(null, 0)
+    os.close(null)
+    os.dup2(stderr_fd, 1)
+    os.dup2(stderr_fd, 2)
 
-    def watch() -> None:
-        while _alive(waiter):
-            time.sleep(0.5)
-        os._exit(1)
 
-    threading.Thread(target=watch, name="lowdim-waiter-watch", daemon=True).start()
-
-
-def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, waiter: int) -> None:
-    _die_with_parent()
-    if os.getppid() != waiter:
-        _watch_waiter(waiter)
-    conn.send(_READY)
+def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, err: int) -> None:
+    # A group of its own, so that the parent's kill reaches every process the job starts.
+    with contextlib.suppress(OSError):
+        os.setpgid(0, 0)
+    die_with_parent()
+    _quiet_standard_streams(err)
     try:
         _cap_address_space(memory_limit)
+    except (OSError, ValueError):
+        pass
+    conn.send(_READY)
+    try:
         message = ("ok", fn(*args))
     except MemoryError as exc:
         detail = f"MemoryError: {exc}" if str(exc) else "MemoryError"
-        limit = (
-            "" if memory_limit is None else f" under the limit of {memory_limit / 2**20:.0f} MB"
-        )
-        message = ("memory", f"ran out of memory{limit} ({detail})")
+        message = ("memory", f"ran out of memory{_limit_text(memory_limit)} ({detail})")
     except BaseException as exc:
         text = " ".join(str(exc).split())
         message = ("failed", f"{type(exc).__name__}: {text}" if text else type(exc).__name__)
@@ -140,6 +166,12 @@ def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, waite
     conn.close()
 
 
+def _limit_text(memory_limit: int | None) -> str:
+    if memory_limit is None:
+        return ""
+    return f" under the limit of {memory_limit / 2**20:.0f} MB"
+
+
 def _alive(pid: int | None) -> bool:
     if pid is None:
         return True
@@ -149,27 +181,40 @@ def _alive(pid: int | None) -> bool:
         return False
 
 
-def _context() -> Any:
-    method = START_METHOD
-    if method == "auto":
-        method = "fork" if threading.active_count() == 1 else "forkserver"
-    ctx = mp.get_context(method)
-    if method == "forkserver":
-        ctx.set_forkserver_preload(PRELOAD)
-    else:
-        _preload()
-    return ctx
+def _use_host() -> bool:
+    if START_METHOD != "auto":
+        return START_METHOD == "host"
+    return threading.active_count() > 1 or bool(mp.current_process().daemon)
 
 
 @functools.cache
-def _preload() -> None:
-    # Imported once in the parent, so that each forked child starts with them loaded instead
-    # of importing them again within its time limit.
+def preload() -> None:
+    """Import :data:`PRELOAD` once, so forked children start with them loaded."""
     for name in PRELOAD:
         try:
             importlib.import_module(name)
         except ImportError:
             pass
+
+
+def _kill_group(proc: Any) -> None:
+    """SIGKILL the child's process group (the child and whatever it started), then the child."""
+    with contextlib.suppress(OSError):
+        os.killpg(proc.pid, signal.SIGKILL)
+    if proc.is_alive():
+        proc.kill()
+
+
+def _tail(fh: Any) -> str:
+    """The last line the child wrote on stdout or stderr, on one line ('' when silent)."""
+    try:
+        size = fh.seek(0, os.SEEK_END)
+        fh.seek(max(0, size - _STDERR_TAIL))
+        lines = [line.strip() for line in fh.read().decode(errors="replace").splitlines()]
+    except OSError:
+        return ""
+    lines = [line for line in lines if line]
+    return " ".join(lines[-1].split()) if lines else ""
 
 
 def run_limited(
@@ -183,23 +228,50 @@ def run_limited(
     """Call ``fn(*args)`` in a child process; stop it at ``timeout`` s or ``memory_limit`` bytes.
 
     ``fn`` must be importable by name (a module-level function) and its result picklable.
+    ``memory_limit`` counts what the call adds to a job process at rest (see the module notes).
     ``watch_pid``: stop waiting, and kill the child, when this process (the run's driver) dies.
     A raised exception becomes status ``failed`` with ``"Type: message"``; a child that dies
-    without answering (a crash in compiled code) is ``failed`` with the signal that killed it.
+    without answering (a crash in compiled code) is ``failed`` with the signal that killed it
+    and its last words, or ``memory`` when those words say an allocation failed.
     """
-    ctx = _context()
+    if _use_host():
+        from lowdim.run.jobhost import call_in_host
+
+        return call_in_host(
+            fn, args, timeout=timeout, memory_limit=memory_limit, watch_pid=watch_pid
+        )
+    preload()
+    with tempfile.TemporaryFile() as captured:
+        return _run_forked(fn, args, timeout, memory_limit, watch_pid, captured)
+
+
+def _run_forked(
+    fn: Callable,
+    args: tuple,
+    timeout: float | None,
+    memory_limit: int | None,
+    watch_pid: int | None,
+    captured: Any,
+) -> Outcome:
+    ctx = mp.get_context("fork")
     receive, send = ctx.Pipe(duplex=False)
     proc = ctx.Process(
-        target=_child, args=(send, fn, args, memory_limit, os.getpid()), daemon=True
+        target=_child,
+        args=(send, fn, args, memory_limit, captured.fileno()),
+        daemon=True,
     )
     proc.start()
+    # Set from both sides, so the group exists whichever runs first.
+    with contextlib.suppress(OSError):
+        os.setpgid(proc.pid, proc.pid)
     send.close()
     watched = psutil.Process(proc.pid)
-    peak = 0
-    # The clock starts when the child is running, so that starting the fork server (once per
-    # worker, seconds on a busy machine) is not charged to the first job.
+    peak = baseline = 0
+    # The clock starts when the child is running, so that a slow start on a busy machine is
+    # not charged to the job.
     start = time.monotonic()
     ready = False
+    message = None
     try:
         while True:
             if receive.poll(_POLL):
@@ -210,6 +282,9 @@ def run_limited(
                 if message == _READY and not ready:
                     ready = True
                     start = time.monotonic()
+                    with contextlib.suppress(psutil.Error):
+                        baseline = watched.memory_info().rss
+                    message = None
                     continue
                 break
             if not proc.is_alive():
@@ -221,11 +296,12 @@ def run_limited(
                 rss = 0
             peak = max(peak, rss)
             elapsed = time.monotonic() - start
-            if memory_limit is not None and rss > memory_limit:
+            if memory_limit is not None and ready and rss - baseline > memory_limit:
                 return Outcome(
                     "memory",
-                    error=f"stopped when its resident memory reached {rss / 2**20:.0f} MB, over "
-                    f"the limit of {memory_limit / 2**20:.0f} MB",
+                    error=f"stopped when its work had added {(rss - baseline) / 2**20:.0f} MB "
+                    f"to the {baseline / 2**20:.0f} MB of a job process at rest, over the "
+                    f"limit of {memory_limit / 2**20:.0f} MB",
                     seconds=elapsed,
                     peak_rss_mb=peak / 2**20,
                 )
@@ -247,30 +323,42 @@ def run_limited(
                     "failed", error="abandoned: the run's driver process died", abandoned=True
                 )
     finally:
-        if proc.is_alive():
-            proc.kill()
+        _kill_group(proc)
         proc.join()
         receive.close()
     elapsed = time.monotonic() - start
     if message is None:
-        code = proc.exitcode
-        how = (
-            f"signal {signal.Signals(-code).name}"
-            if code is not None and code < 0
-            else f"exit status {code}"
-        )
-        return Outcome(
-            "failed",
-            error=f"the job's process died with {how} before returning a result",
-            seconds=elapsed,
-            peak_rss_mb=peak / 2**20,
-        )
+        return _died(proc.exitcode, _tail(captured), memory_limit, elapsed, peak)
     status, value = message[0], message[1]
     if status == "ok":
         return Outcome("ok", value=value, seconds=elapsed, peak_rss_mb=peak / 2**20)
     detail = message[2] if len(message) > 2 else None
     return Outcome(
         status, error=value, seconds=elapsed, peak_rss_mb=peak / 2**20, traceback=detail
+    )
+
+
+def _died(code: int | None, last: str, memory_limit: int | None, seconds: float, peak: int):
+    """The outcome of a child that ended without answering."""
+    how = (
+        f"signal {signal.Signals(-code).name}"
+        if code is not None and code < 0
+        else f"exit status {code}"
+    )
+    said = f" (it said: {last})" if last else ""
+    if memory_limit is not None and _ALLOCATION_FAILED.search(last):
+        return Outcome(
+            "memory",
+            error=f"an allocation failed in compiled code{_limit_text(memory_limit)}: the "
+            f"job's process ended with {how}{said}",
+            seconds=seconds,
+            peak_rss_mb=peak / 2**20,
+        )
+    return Outcome(
+        "failed",
+        error=f"the job's process died with {how} before returning a result{said}",
+        seconds=seconds,
+        peak_rss_mb=peak / 2**20,
     )
 
 

@@ -18,6 +18,7 @@ exceeds the cores.
 
 from __future__ import annotations
 
+import contextlib
 import logging
 import os
 import platform
@@ -26,6 +27,7 @@ import socket
 import sys
 import time
 from collections import Counter
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -146,36 +148,27 @@ def _select(jobs: list[Job], statuses: dict[str, str], *, force: bool, retry: bo
     return [j for j in jobs if j.job_id not in statuses]
 
 
-def _results(todo: list[Job], plugins: tuple[str, ...], n_jobs: int, backend: str, scheduler):
-    """Yield each job's record as soon as it finishes, in completion order."""
+def _local_results(todo: list[Job], plugins: tuple[str, ...], n_jobs: int) -> Iterator[dict]:
+    """Yield each job's record as soon as it finishes, in completion order (loky)."""
     from joblib import Parallel, delayed, parallel_config
 
     watch = (socket.gethostname(), os.getpid())
     tasks = (delayed(run_job)(job, plugins, watch) for job in todo)
-    if backend == "dask":
-        from distributed import Client, LocalCluster
-
-        if scheduler:
-            client = Client(scheduler)
-            cluster = None
-        else:
-            cluster = LocalCluster(
-                n_workers=n_jobs if n_jobs > 0 else available_cores(),
-                threads_per_worker=1,
-                host="127.0.0.1",
-                dashboard_address=None,
-            )
-            client = Client(cluster)
-        try:
-            with parallel_config(backend="dask"):
-                yield from Parallel(n_jobs=-1, return_as="generator_unordered")(tasks)
-        finally:
-            client.close()
-            if cluster is not None:
-                cluster.close()
-        return
     with parallel_config(backend="loky"):
         yield from Parallel(n_jobs=n_jobs, return_as="generator_unordered")(tasks)
+
+
+@contextlib.contextmanager
+def _executor(backend: str, scheduler: str | None, n_jobs: int, threads: int):
+    """A function ``(todo, plugins) -> records``; dask connects before anything is written."""
+    if backend != "dask":
+        yield lambda todo, plugins: _local_results(todo, plugins, n_jobs)
+        return
+    from lowdim.run.cluster import connect, dask_results
+
+    workers = n_jobs if n_jobs > 0 else max(1, available_cores() // threads)
+    with connect(scheduler, workers) as client:
+        yield lambda todo, plugins: dask_results(client, todo, plugins)
 
 
 def run_suite(
@@ -239,7 +232,7 @@ def run_suite(
     out_dir = Path(out_dir)
     tic = time.monotonic()
     counts: Counter[str] = Counter()
-    with Store(out_dir) as store:
+    with _executor(backend, scheduler, n_jobs, suite.threads) as results, Store(out_dir) as store:
         todo = _select(jobs, store.statuses(), force=force, retry=retry)
         run_id = store.start_run(
             command=command or shlex.join(sys.argv),
@@ -269,7 +262,7 @@ def run_suite(
             dynamic_ncols=True,
         )
         try:
-            for record in _results(todo, plugins, n_jobs, backend, scheduler):
+            for record in results(todo, plugins) if todo else ():
                 store.record(record, run_id)
                 job = record["job"]
                 counts[record["status"]] += 1

@@ -70,6 +70,8 @@ class Job:
     suite fixed its own); ``method_spec`` is ``{"name": ...}`` or ``{"import": ...}`` plus the
     method's parameters as the suite wrote them. The runner adds ``n_components`` and
     ``random_state`` where the estimator has them. ``memory_limit`` is in bytes (None: none).
+    ``data_sha256`` is the content hash of a file dataset, so that a worker on another machine
+    can tell that it reads the same file.
     """
 
     job_id: str
@@ -84,6 +86,7 @@ class Job:
     timeout: float | None
     memory_limit: int | None
     threads: int = 1
+    data_sha256: str | None = None
 
     @property
     def method_params(self) -> dict:
@@ -170,6 +173,7 @@ class Suite:
                     timeout=self.timeout,
                     memory_limit=self.memory_limit,
                     threads=self.threads,
+                    data_sha256=data.id_spec.get("file_sha256"),
                 )
             )
         return out

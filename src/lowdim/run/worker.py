@@ -19,10 +19,19 @@ from typing import Any
 import numpy as np
 from threadpoolctl import threadpool_limits
 
-from lowdim.run.limits import run_limited
+from lowdim.run.datafiles import check_data_file, dask_worker_address, where_am_i
+from lowdim.run.limits import Outcome, run_limited
 from lowdim.run.suites import RUNNER_METRICS, Job
 
-__all__ = ["build_estimator", "execute_job", "run_job", "data_fingerprint", "point_colours"]
+__all__ = [
+    "build_estimator",
+    "execute_job",
+    "run_job",
+    "job_record",
+    "failure_record",
+    "data_fingerprint",
+    "point_colours",
+]
 
 # Rows used to find the first principal direction that colours data with no truth or labels.
 _COLOUR_ROWS = 5000
@@ -194,17 +203,26 @@ def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | No
     """
     started = _now()
     watch_pid = watch[1] if watch is not None and watch[0] == socket.gethostname() else None
-    outcome = run_limited(
-        execute_job,
-        (job, tuple(plugins)),
-        timeout=job.timeout,
-        memory_limit=job.memory_limit,
-        watch_pid=watch_pid,
-    )
-    if outcome.abandoned and watch_pid != os.getpid():
-        # The driver is gone, so no one will read this record; a worker process left behind
-        # would idle for minutes.
+    problem = check_data_file(job.dataset_spec, job.data_sha256, plugins, where_am_i())
+    if problem is not None:
+        outcome = Outcome("failed", error=problem)
+    else:
+        outcome = run_limited(
+            execute_job,
+            (job, tuple(plugins)),
+            timeout=job.timeout,
+            memory_limit=job.memory_limit,
+            watch_pid=watch_pid,
+        )
+    if outcome.abandoned and watch_pid != os.getpid() and dask_worker_address() is None:
+        # The driver is gone, so no one will read this record; a loky worker left behind
+        # would idle for minutes. (A dask worker belongs to its cluster and stays.)
         os._exit(1)
+    return job_record(job, outcome, started)
+
+
+def job_record(job: Job, outcome: Outcome, started: str) -> dict:
+    """The record the driver stores for ``job`` from its :class:`Outcome`."""
     record: dict[str, Any] = {
         "job": job,
         "status": outcome.status,
@@ -224,3 +242,8 @@ def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | No
     if outcome.status == "ok":
         record.update(outcome.value)
     return record
+
+
+def failure_record(job: Job, error: str) -> dict:
+    """The record of a job that could not be run at all (status ``failed``)."""
+    return job_record(job, Outcome("failed", error=error), _now())
