@@ -59,7 +59,14 @@ from typing import Any
 
 import psutil
 
-__all__ = ["Outcome", "run_limited", "START_METHOD", "PRELOAD", "ADDRESS_HEADROOM"]
+__all__ = [
+    "Outcome",
+    "run_limited",
+    "lift_memory_limit",
+    "START_METHOD",
+    "PRELOAD",
+    "ADDRESS_HEADROOM",
+]
 
 # "auto": fork from a single-threaded, non-daemonic parent, else go through a job host;
 # "fork" and "host" force one (in-process tests use "fork" to hand fakes to the child).
@@ -81,6 +88,7 @@ PRELOAD = [
 ADDRESS_HEADROOM = 2**30
 _POLL = 0.05
 _READY = "ready"
+_LIFTED = "lifted"
 _START_GRACE = 300.0
 _PR_SET_PDEATHSIG = 1
 _STDERR_TAIL = 4096
@@ -92,6 +100,8 @@ _ALLOCATION_FAILED = re.compile(
 )
 # File descriptors the child must not keep (a job host's channel to its caller).
 CLOSE_IN_CHILD: list[int] = []
+# In a limited child: the pipe to the waiting parent (None elsewhere).
+_to_parent: Any = None
 
 
 @dataclass(frozen=True)
@@ -114,6 +124,35 @@ def die_with_parent() -> None:
         libc.prctl(_PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
     except OSError:  # not Linux: the waiting parent's own checks still apply
         pass
+
+
+def lift_memory_limit() -> None:
+    """Called by a limited child once the work the limit is for is done; no-op elsewhere.
+
+    The parent stops watching the memory and the address-space cap goes back to the hard
+    limit, so that the bounded work that follows (scoring, in blocks) is not counted.
+    """
+    if _to_parent is None:
+        return
+    _to_parent.send(_LIFTED)
+    _, hard = resource.getrlimit(resource.RLIMIT_AS)
+    resource.setrlimit(resource.RLIMIT_AS, (hard, hard))
+
+
+def _private_resident(proc: psutil.Process) -> int:
+    """Anonymous resident memory (``RssAnon``), else the resident set size.
+
+    Anonymous memory is what the process allocated; unlike the resident set size it leaves out
+    the pages of shared libraries that a forked child maps in as it first runs their code.
+    """
+    try:
+        with open(f"/proc/{proc.pid}/status", "rb") as fh:
+            for line in fh:
+                if line.startswith(b"RssAnon:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
+    return proc.memory_info().rss
 
 
 def _cap_address_space(memory_limit: int | None) -> None:
@@ -140,6 +179,7 @@ def _quiet_standard_streams(stderr_fd: int) -> None:
 
 
 def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, err: int) -> None:
+    global _to_parent
     # A group of its own, so that the parent's kill reaches every process the job starts.
     with contextlib.suppress(OSError):
         os.setpgid(0, 0)
@@ -150,6 +190,7 @@ def _child(conn: Any, fn: Callable, args: tuple, memory_limit: int | None, err: 
     except (OSError, ValueError):
         pass
     conn.send(_READY)
+    _to_parent = conn
     try:
         message = ("ok", fn(*args))
     except MemoryError as exc:
@@ -267,6 +308,7 @@ def _run_forked(
     send.close()
     watched = psutil.Process(proc.pid)
     peak = baseline = 0
+    watching = memory_limit is not None
     # The clock starts when the child is running, so that a slow start on a busy machine is
     # not charged to the job.
     start = time.monotonic()
@@ -283,7 +325,11 @@ def _run_forked(
                     ready = True
                     start = time.monotonic()
                     with contextlib.suppress(psutil.Error):
-                        baseline = watched.memory_info().rss
+                        baseline = _private_resident(watched)
+                    message = None
+                    continue
+                if message == _LIFTED:
+                    watching = False
                     message = None
                     continue
                 break
@@ -291,12 +337,12 @@ def _run_forked(
                 message = receive.recv() if receive.poll(0) else None
                 break
             try:
-                rss = watched.memory_info().rss
+                rss = _private_resident(watched)
             except psutil.Error:
                 rss = 0
             peak = max(peak, rss)
             elapsed = time.monotonic() - start
-            if memory_limit is not None and ready and rss - baseline > memory_limit:
+            if watching and ready and rss - baseline > memory_limit:
                 return Outcome(
                     "memory",
                     error=f"stopped when its work had added {(rss - baseline) / 2**20:.0f} MB "

@@ -20,7 +20,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from lowdim.run.datafiles import check_data_file, dask_worker_address, where_am_i
-from lowdim.run.limits import Outcome, run_limited
+from lowdim.run.limits import Outcome, lift_memory_limit, run_limited
 from lowdim.run.suites import RUNNER_METRICS, Job
 
 __all__ = [
@@ -142,6 +142,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         Y = estimator.fit_transform(X)
         fit_seconds = time.perf_counter() - tic
         peak_mb = max(0, _peak_rss() - before) / 2**20
+        # The memory limit is for loading and fitting; scoring works in blocks of bounded size.
+        lift_memory_limit()
         # The kernel scale a rule picked, so the report can mark it on the sensitivity curves.
         sigma = getattr(estimator, "bandwidth_", None)
         if hasattr(Y, "toarray"):
