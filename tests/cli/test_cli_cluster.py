@@ -151,16 +151,41 @@ def cli_cluster(tmp_path):
         cluster.close()
 
 
-def test_local_cluster_of_two_processes_with_two_threads_matches_the_local_backend(tmp_path):
+GREEDY_PLUGIN = """
+import time
+import numpy as np
+from sklearn.decomposition import PCA
+from lowdim.methods import register_method
+
+@register_method("cl_hangs")
+class Hangs(PCA):
+    def fit_transform(self, X, y=None):
+        time.sleep(600)
+
+@register_method("cl_greedy")
+class Greedy(PCA):
+    def fit_transform(self, X, y=None):
+        blocks = [np.ones(2**24) for _ in range(40)]  # 40 x 128 MB, touched
+        return super().fit_transform(X, y)
+"""
+
+
+def test_local_cluster_of_two_processes_with_two_threads_matches_local_and_keeps_limits(
+    tmp_path,
+):
+    plugin = tmp_path / "greedy.py"
+    plugin.write_text(GREEDY_PLUGIN)
     methods = (
         '[[methods]]\nname = "laplacian_eigenmaps"\nn_neighbors = 8\n'
         '[[methods]]\nname = "diffusion_maps"\nn_neighbors = 10\n'
         '[[methods]]\nimport = "sklearn.decomposition:PCA"\nlabel = "sk-pca"\n'
+        '[[methods]]\nname = "cl_hangs"\n[[methods]]\nname = "cl_greedy"\n'
     )
     suite = write_suite(tmp_path, "same", methods, seeds="[0, 1]")
-    local = lowdim(
-        "run", str(suite), "--out", "local", "-j", "1", "-q", "--no-report", cwd=tmp_path
-    )
+    text = suite.read_text().replace("timeout = 60", "timeout = 4")
+    suite.write_text(text.replace('"1GB"', '"512MB"'))
+    common = ["--plugin", str(plugin), "--no-report"]
+    local = lowdim("run", str(suite), "--out", "local", "-j", "2", "-q", *common, cwd=tmp_path)
     assert local.returncode == 0, local.stderr
     with distributed.LocalCluster(
         host="127.0.0.1", n_workers=2, threads_per_worker=2, processes=True,
@@ -168,12 +193,15 @@ def test_local_cluster_of_two_processes_with_two_threads_matches_the_local_backe
     ) as cluster:  # fmt: skip
         done = lowdim(
             "run", str(suite), "--out", "dask", "--backend", "dask",
-            "--scheduler", cluster.scheduler_address, "--no-report", cwd=tmp_path,
+            "--scheduler", cluster.scheduler_address, *common, cwd=tmp_path,
         )  # fmt: skip
     assert done.returncode == 0, done.stderr
-    assert "6 jobs, 6 run, 0 already done, 6 ok" in done.stderr
+    assert "10 jobs, 10 run, 0 already done, 6 ok, 2 timeout, 2 memory" in done.stderr
     # the progress bar moved job by job as results streamed back
-    assert "6/6" in done.stderr and "1/6" in done.stderr
+    assert "1/10" in done.stderr and "10/10" in done.stderr
+    # time and memory limits hold inside daemonic, two-threaded dask workers
+    status = rows(tmp_path / "dask", "SELECT method, status, COUNT(*) FROM jobs GROUP BY 1, 2")
+    assert ("cl_hangs", "timeout", 2) in status and ("cl_greedy", "memory", 2) in status
     query = (
         "SELECT j.method_label, j.seed, s.metric, s.k, s.value FROM scores s JOIN jobs j "
         "USING (job_id) WHERE s.metric NOT IN ('fit_seconds', 'peak_mb') ORDER BY 1, 2, 3, 4"
@@ -181,35 +209,6 @@ def test_local_cluster_of_two_processes_with_two_threads_matches_the_local_backe
     expected = rows(tmp_path / "local", query)
     assert len(expected) == 16  # two criteria per job, and the sigma of the two graph methods
     assert rows(tmp_path / "dask", query) == expected  # bit for bit, whatever the backend
-
-
-def test_limits_hold_inside_daemonic_multi_threaded_workers(tmp_path):
-    plugin = tmp_path / "greedy.py"
-    plugin.write_text(
-        "import time\nimport numpy as np\nfrom sklearn.decomposition import PCA\n"
-        "from lowdim.methods import register_method\n\n"
-        "@register_method('cl_hangs')\nclass Hangs(PCA):\n"
-        "    def fit_transform(self, X, y=None):\n        time.sleep(600)\n\n"
-        "@register_method('cl_greedy')\nclass Greedy(PCA):\n"
-        "    def fit_transform(self, X, y=None):\n"
-        "        blocks = [np.ones(2**24) for _ in range(40)]\n"
-        "        return super().fit_transform(X, y)\n"
-    )
-    methods = '[[methods]]\nname = "cl_hangs"\n[[methods]]\nname = "cl_greedy"\n'
-    suite = write_suite(tmp_path, "limits", methods, seeds="[0]")
-    suite.write_text(suite.read_text().replace("timeout = 60", "timeout = 3"))
-    suite.write_text(suite.read_text().replace('"1GB"', '"512MB"'))
-    with distributed.LocalCluster(
-        host="127.0.0.1", n_workers=2, threads_per_worker=2, processes=True,
-        dashboard_address=None,
-    ) as cluster:  # fmt: skip
-        done = lowdim(
-            "run", str(suite), "--out", "out", "--backend", "dask", "--plugin", str(plugin),
-            "--scheduler", cluster.scheduler_address, "-q", "--no-report", cwd=tmp_path,
-        )  # fmt: skip
-    assert done.returncode == 0, done.stderr
-    status = dict(rows(tmp_path / "out", "SELECT method, status FROM jobs"))
-    assert status == {"cl_hangs": "timeout", "cl_greedy": "memory"}
 
 
 def test_command_line_cluster_loses_a_worker_and_a_driver_and_keeps_every_job_once(

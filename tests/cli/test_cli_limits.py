@@ -116,16 +116,33 @@ def test_no_process_a_job_starts_outlives_it(tmp_path):
 
 
 def test_memory_limit_counts_the_work_not_the_process_at_rest(tmp_path):
-    # PCA of 5,000 x 3 adds a few MB; an RBF kernel PCA of 5,000 points holds the 5,000 x 5,000
-    # float64 kernel, 5000**2 * 8 bytes = 191 MB, on its own over the limit (exact arithmetic).
-    path = suite(tmp_path, ["pca", "kernel_pca"], memory="100MB", n=5000)
+    # PCA of 5,000 x 3 adds a few MB; scikit-learn's RBF KernelPCA of 5,000 points holds the
+    # 5,000 x 5,000 float64 kernel, 5000**2 * 8 bytes = 191 MB, on its own over the limit
+    # (exact arithmetic). An imported class is not estimated beforehand: it is stopped.
+    path = suite(tmp_path, ["pca"], memory="100MB", n=5000)
+    path.write_text(
+        path.read_text() + '[[methods]]\nimport = "sklearn.decomposition:KernelPCA"\n'
+        'label = "sk-kpca"\nkernel = "rbf"\n'
+    )
     done = lowdim("run", str(path), "--out", "out", "-j", "2", "-q", "--no-report", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     status = jobs(tmp_path / "out")
     assert status["pca"] == ("ok", None)
-    state, error = status["kernel_pca"]
+    state, error = status["sklearn.decomposition:KernelPCA"]
     assert state == "memory"
     assert "of a job process at rest, over the limit of 100 MB" in error
+
+
+def test_a_suite_that_cannot_fit_its_memory_limit_is_refused_before_it_starts(tmp_path):
+    path = suite(tmp_path, ["pca", "kernel_pca"], memory="100MB", n=5000)
+    done = lowdim("run", str(path), "--out", "out", cwd=tmp_path)
+    assert done.returncode == 2
+    assert done.stderr.splitlines() == [
+        f"lowdim: error: {path}: kernel_pca on swiss_roll(n=5000) cannot fit: its 5,000 x "
+        "5,000 matrix alone needs about 190.8 MB (estimate), over the memory_limit of 100.0 MB; "
+        "raise `memory_limit`, lower `n` or use landmarks"
+    ]
+    assert not (tmp_path / "out").exists()
 
 
 def test_an_allocation_failure_in_native_code_is_memory_and_a_crash_is_not(tmp_path):

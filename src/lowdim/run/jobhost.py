@@ -17,6 +17,8 @@ can too. It ends when its caller closes the pipe, when the thread that started i
 
 from __future__ import annotations
 
+import atexit
+import contextlib
 import os
 import pickle
 import select
@@ -34,6 +36,7 @@ __all__ = ["call_in_host", "IDLE_SECONDS"]
 IDLE_SECONDS = 300.0
 _HEADER = struct.Struct("<Q")
 _local = threading.local()
+_started: list[subprocess.Popen] = []
 
 
 def _write(fh: BinaryIO, obj: Any) -> None:
@@ -64,9 +67,25 @@ def _start_host() -> subprocess.Popen:
         env=env,
         close_fds=True,
     )
+    _started.append(proc)
     if _read(proc.stdout) != "ready":
         raise RuntimeError("the job host did not start")
     return proc
+
+
+@atexit.register
+def _close_hosts() -> None:
+    """Close every host this process started (each ends when its pipe closes)."""
+    for proc in _started:
+        if proc.poll() is None:
+            for fh in (proc.stdin, proc.stdout):
+                with contextlib.suppress(OSError):
+                    fh.close()
+            try:
+                proc.wait(timeout=5)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
 
 
 def _host() -> subprocess.Popen:
@@ -78,6 +97,8 @@ def _host() -> subprocess.Popen:
 
 def _forget(proc: subprocess.Popen) -> None:
     _local.proc = None
+    with contextlib.suppress(ValueError):
+        _started.remove(proc)
     proc.kill()
     proc.wait()
     for fh in (proc.stdin, proc.stdout):
