@@ -131,6 +131,11 @@ def test_memory_limit_counts_the_work_not_the_process_at_rest(tmp_path):
     state, error = status["sklearn.decomposition:KernelPCA"]
     assert state == "memory"
     assert "of a job process at rest, over the limit of 100 MB" in error
+    # where a method stopped is a result: the stopped job keeps the size of its data
+    db = sqlite3.connect(tmp_path / "out" / "store.sqlite")
+    shapes = set(db.execute("SELECT status, n_samples, n_features FROM jobs"))
+    db.close()
+    assert shapes == {("ok", 5000, 3), ("memory", 5000, 3)}
 
 
 def test_a_suite_that_cannot_fit_its_memory_limit_is_refused_before_it_starts(tmp_path):

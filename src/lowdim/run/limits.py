@@ -54,7 +54,7 @@ import threading
 import time
 import traceback
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import psutil
@@ -63,6 +63,7 @@ __all__ = [
     "Outcome",
     "run_limited",
     "lift_memory_limit",
+    "tell_parent",
     "START_METHOD",
     "PRELOAD",
     "ADDRESS_HEADROOM",
@@ -89,6 +90,7 @@ ADDRESS_HEADROOM = 2**30
 _POLL = 0.05
 _READY = "ready"
 _LIFTED = "lifted"
+_FACTS = "facts"
 _START_GRACE = 300.0
 _PR_SET_PDEATHSIG = 1
 _STDERR_TAIL = 4096
@@ -115,6 +117,7 @@ class Outcome:
     peak_rss_mb: float = 0.0
     traceback: str | None = None
     abandoned: bool = False
+    facts: dict = field(default_factory=dict)
 
 
 def die_with_parent() -> None:
@@ -137,6 +140,16 @@ def lift_memory_limit() -> None:
     _to_parent.send(_LIFTED)
     _, hard = resource.getrlimit(resource.RLIMIT_AS)
     resource.setrlimit(resource.RLIMIT_AS, (hard, hard))
+
+
+def tell_parent(**facts: Any) -> None:
+    """Called by a limited child to pass facts (e.g. the data's shape) to the parent early.
+
+    They reach the :class:`Outcome` however the child ends, even when it is killed at a limit
+    later on. A no-op outside a limited child.
+    """
+    if _to_parent is not None:
+        _to_parent.send((_FACTS, facts))
 
 
 def _private_resident(proc: psutil.Process) -> int:
@@ -282,8 +295,10 @@ def run_limited(
             fn, args, timeout=timeout, memory_limit=memory_limit, watch_pid=watch_pid
         )
     preload()
+    facts: dict = {}
     with tempfile.TemporaryFile() as captured:
-        return _run_forked(fn, args, timeout, memory_limit, watch_pid, captured)
+        outcome = _run_forked(fn, args, timeout, memory_limit, watch_pid, captured, facts)
+    return replace(outcome, facts=facts) if facts else outcome
 
 
 def _run_forked(
@@ -293,6 +308,7 @@ def _run_forked(
     memory_limit: int | None,
     watch_pid: int | None,
     captured: Any,
+    facts: dict,
 ) -> Outcome:
     ctx = mp.get_context("fork")
     receive, send = ctx.Pipe(duplex=False)
@@ -330,6 +346,10 @@ def _run_forked(
                     continue
                 if message == _LIFTED:
                     watching = False
+                    message = None
+                    continue
+                if isinstance(message, tuple) and message[0] == _FACTS:
+                    facts.update(message[1])
                     message = None
                     continue
                 break

@@ -20,7 +20,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from lowdim.run.datafiles import check_data_file, dask_worker_address, where_am_i
-from lowdim.run.limits import Outcome, lift_memory_limit, run_limited
+from lowdim.run.limits import Outcome, lift_memory_limit, run_limited, tell_parent
 from lowdim.run.suites import RUNNER_METRICS, Job
 
 __all__ = [
@@ -133,6 +133,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         warnings.simplefilter("always")
         data = datasets.load(dict(job.dataset_spec))
         X = np.asarray(data.X, dtype=np.float64)
+        # Known to the parent even if a limit stops the fit: where a method stops is a result.
+        tell_parent(n_samples=int(X.shape[0]), n_features=int(X.shape[1]))
         fingerprint = data_fingerprint(X)
         colour = point_colours(X, data.labels, data.truth)
         estimator = build_estimator(job)
@@ -243,6 +245,8 @@ def job_record(job: Job, outcome: Outcome, started: str) -> dict:
     }
     if outcome.status == "ok":
         record.update(outcome.value)
+    else:
+        record.update({k: v for k, v in outcome.facts.items() if k in record})
     return record
 
 
