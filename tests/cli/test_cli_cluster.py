@@ -182,7 +182,8 @@ def test_local_cluster_of_two_processes_with_two_threads_matches_local_and_keeps
         '[[methods]]\nname = "cl_hangs"\n[[methods]]\nname = "cl_greedy"\n'
     )
     suite = write_suite(tmp_path, "same", methods, seeds="[0, 1]")
-    text = suite.read_text().replace("timeout = 60", "timeout = 4")
+    # long enough for a job to load its plugin on a busy machine before its fit starts
+    text = suite.read_text().replace("timeout = 60", "timeout = 10")
     suite.write_text(text.replace('"1GB"', '"512MB"'))
     common = ["--plugin", str(plugin), "--no-report"]
     local = lowdim("run", str(suite), "--out", "local", "-j", "2", "-q", *common, cwd=tmp_path)

@@ -153,7 +153,7 @@ def test_a_suite_that_cannot_fit_its_memory_limit_is_refused_before_it_starts(tm
 def test_an_allocation_failure_in_native_code_is_memory_and_a_crash_is_not(tmp_path):
     plugin = tmp_path / "helpers.py"
     plugin.write_text(HELPERS.format(pids=str(tmp_path / "pids.txt")))
-    path = suite(tmp_path, ["pg_native_oom", "pg_crashes"], memory="200MB", n=200)
+    path = suite(tmp_path, ["pca", "pg_native_oom", "pg_crashes"], memory="200MB", n=200)
     done = lowdim("run", str(path), "--out", "out", "--plugin", str(plugin), "-j", "2", "-q",
                   "--no-report", cwd=tmp_path)  # fmt: skip
     assert done.returncode == 0, done.stderr

@@ -81,6 +81,7 @@ PRELOAD = [
     "lowdim.methods.diffusion",
     "scipy.sparse",
     "sklearn.base",
+    "sklearn.decomposition",
     "lowdim.run.worker",
     "lowdim.datasets",
     "lowdim.metrics",
