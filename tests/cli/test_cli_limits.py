@@ -143,9 +143,10 @@ def test_a_suite_that_cannot_fit_its_memory_limit_is_refused_before_it_starts(tm
     done = lowdim("run", str(path), "--out", "out", cwd=tmp_path)
     assert done.returncode == 2
     assert done.stderr.splitlines() == [
-        f"lowdim: error: {path}: kernel_pca on swiss_roll(n=5000) cannot fit: its 5,000 x "
-        "5,000 matrix alone needs about 190.8 MB (estimate), over the memory_limit of 100.0 MB; "
-        "raise `memory_limit`, lower `n` or use landmarks"
+        f"lowdim: error: {path}: the 2nd [[methods]] (kernel_pca) on the 1st [[datasets]] "
+        "(swiss_roll(n=5000), n = 5000, D = 3): the dense n x n kernel matrix (1 x 8 bytes x "
+        "n^2, besides the data) needs about 191.1 MB, more than `memory_limit` = 100.0 MB in "
+        "[suite]; raise `memory_limit`, lower `n`, or set `n_landmarks` (Nyström)"
     ]
     assert not (tmp_path / "out").exists()
 

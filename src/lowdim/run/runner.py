@@ -33,7 +33,6 @@ from pathlib import Path
 
 from lowdim import __version__
 from lowdim.errors import InputError
-from lowdim.run.estimates import check_memory
 from lowdim.run.limits import available_cores
 from lowdim.run.settings import resolve_settings
 from lowdim.run.store import Store
@@ -230,7 +229,6 @@ def run_suite(
     plugins = tuple(str(Path(p).resolve()) for p in plugins)
     settings = resolve_settings(suite, context=context, blocks=blocks)
     jobs = suite.jobs()
-    check_memory(jobs, suite.source)
     out_dir = Path(out_dir)
     tic = time.monotonic()
     counts: Counter[str] = Counter()
