@@ -113,7 +113,7 @@ def peer_tables(
     n_components : int, default=2
         Sets the smallest neighbour count of Hessian LLE, LTSA and modified LLE.
     quick : bool, default=False
-        One setting per peer: the middle value of each grid.
+        One setting per peer: the middle value of each grid (the lower of two).
 
     Returns
     -------
@@ -145,6 +145,6 @@ def peer_tables(
             left_out.append((name, "; ".join(reasons)))
             continue
         if quick:
-            grid = {key: [values[len(values) // 2]] for key, values in grid.items()}
+            grid = {key: [values[(len(values) - 1) // 2]] for key, values in grid.items()}
         tables.append({"name": name, "label": name, "grid": grid} if grid else {"name": name})
     return tables, left_out
