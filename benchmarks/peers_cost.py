@@ -114,6 +114,7 @@ def main() -> None:
         f"  {'method':<20}{'lowdim':>9}{'reference':>11}{'ratio':>7}{'grid':>9}  tier (declared)"
     )
     warnings.simplefilter("ignore")
+    sweep = {"fast": 0.0, "slow": 0.0}
     with threadpool_limits(limits=1):
         for name in ("pca", "laplacian_eigenmaps", "diffusion_maps"):
             model = get_method(name)(random_state=0)
@@ -136,6 +137,7 @@ def main() -> None:
                 for value in values:
                     model = cls(**{**params, key: value})
                     grid += median_seconds(lambda m=model: m.fit_transform(X), 1)
+            sweep[cls.cost_tier] += grid if cls.compare_grid else ours
             tier = "fast" if ours <= FAST_SECONDS else "slow"
             mark = "" if tier == cls.cost_tier else "  <- differs from the declared tier"
             grid_text = f"{grid:8.2f}s" if cls.compare_grid else f"{ours:8.2f}s"
@@ -143,10 +145,14 @@ def main() -> None:
                 f"  {name:<20}{ours:8.2f}s{theirs:10.2f}s{ours / theirs:7.2f}{grid_text}"
                 f"  {tier} ({cls.cost_tier}){mark}"
             )
+    print(
+        f"\n  one fit of every grid value: fast peers {sweep['fast']:.1f} s, "
+        f"slow peers {sweep['slow']:.1f} s (per resample and seed of a comparison)"
+    )
     if get_method("umap").unavailable() is None:
         first = umap_first_fit(args.n, args.features)
         text = f"{first:.1f} s" if first is not None else "failed"
-        print(f"\n  umap's first fit in a new process, import included: {text}")
+        print(f"  umap's first fit in a new process, import included: {text}")
     print(f"\nload average at the end {os.getloadavg()[0]:.1f}")
 
 
