@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 import inspect
 
-from lowdim.methods import get_method, method_names, method_origin
+from lowdim.methods import get_method, has_transform, method_names, method_origin
 
 HELP = "list the registered methods with their parameters, defaults and the paper each implements"
 
@@ -15,7 +15,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def describe_method(name: str) -> list[str]:
-    """Lines describing one method: origin, paper and parameters with defaults."""
+    """Lines describing one method: origin, paper, parameters with defaults.
+
+    A method without out-of-sample ``transform`` says so; a peer adds what ``lowdim
+    compare`` sweeps of it and in which cost tier.
+    """
     cls = get_method(name)
     doc = inspect.getdoc(cls) or ""
     summary = doc.splitlines()[0] if doc else cls.__name__
@@ -23,6 +27,15 @@ def describe_method(name: str) -> list[str]:
     reference = getattr(cls, "_reference", None)
     if reference:
         lines.append(f"    paper: {reference}")
+    if not has_transform(cls):
+        lines.append("    transform: none (it embeds only the rows it was fitted on)")
+    tier = getattr(cls, "cost_tier", None)
+    if tier is not None:
+        grid = "; ".join(
+            f"{key} in {', '.join(map(str, values))}" for key, values in cls.compare_grid.items()
+        )
+        sweep = "the standard sweep" if tier == "fast" else "the full sweep only"
+        lines.append(f"    compare: {grid or 'its defaults'} ({tier}: in {sweep})")
     try:
         params = cls().get_params(deep=False)
     except TypeError:

@@ -1,6 +1,8 @@
-"""The method registry: built-in spectral methods and the ones users add.
+"""The method registry: built-in spectral methods, the peers, and the ones users add.
 
-Built-ins are imported on first use, so ``lowdim --help`` stays fast. Outside methods join by
+Built-ins are imported on first use, so ``lowdim --help`` stays fast. They are lowdim's five
+spectral methods and the peers of :mod:`lowdim.methods.peers` (scikit-learn's Isomap, LLE
+forms, t-SNE and SMACOF, and UMAP when ``umap-learn`` is installed). Outside methods join by
 ``@register_method("name")`` in a plugin file (``--plugin path.py``), by the entry-point group
 ``lowdim.methods``, or by ``import = "pkg.mod:Class"`` in a suite (see :func:`import_object`).
 """
@@ -23,12 +25,23 @@ __all__ = [
     "KernelPCA",
     "LaplacianEigenmaps",
     "DiffusionMaps",
+    "IsomapEmbedding",
+    "LLEEmbedding",
+    "ModifiedLLEEmbedding",
+    "HessianLLEEmbedding",
+    "LTSAEmbedding",
+    "TSNEEmbedding",
+    "SmacofMDS",
+    "UMAPEmbedding",
     "get_method",
     "method_names",
     "register_method",
     "load_entry_points",
     "load_plugin",
     "import_object",
+    "method_origin",
+    "method_unavailable",
+    "has_transform",
     "PluginError",
 ]
 
@@ -39,6 +52,15 @@ _BUILTINS: dict[str, tuple[str, str]] = {
     "kernel_pca": ("lowdim.methods.kernel_pca", "KernelPCA"),
     "laplacian_eigenmaps": ("lowdim.methods.laplacian", "LaplacianEigenmaps"),
     "diffusion_maps": ("lowdim.methods.diffusion", "DiffusionMaps"),
+    # the peers: adapters around the implementations practitioners compare against
+    "isomap": ("lowdim.methods.peers", "IsomapEmbedding"),
+    "lle": ("lowdim.methods.peers", "LLEEmbedding"),
+    "lle_modified": ("lowdim.methods.peers", "ModifiedLLEEmbedding"),
+    "lle_hessian": ("lowdim.methods.peers", "HessianLLEEmbedding"),
+    "ltsa": ("lowdim.methods.peers", "LTSAEmbedding"),
+    "tsne": ("lowdim.methods.peers", "TSNEEmbedding"),
+    "smacof": ("lowdim.methods.peers", "SmacofMDS"),
+    "umap": ("lowdim.methods.peers", "UMAPEmbedding"),
 }
 _CLASS_TO_NAME = {cls: name for name, (_, cls) in _BUILTINS.items()}
 
@@ -186,8 +208,39 @@ def get_method(name: str) -> type:
 
 
 def method_origin(name: str) -> str:
-    """Where the method ``name`` comes from (module path, plugin file or entry point)."""
+    """Where the method ``name`` comes from (module path, plugin file or entry point).
+
+    A peer names the package, its version and the class that implements it, e.g.
+    ``"scikit-learn 1.9.1: sklearn.manifold.Isomap"``, or how to install a missing package.
+    """
     if name in _BUILTINS:
-        module, cls = _BUILTINS[name]
-        return f"{module}.{cls}"
+        cls = _builtin(name)
+        if hasattr(cls, "origin"):
+            return cls.origin()
+        module, clsname = _BUILTINS[name]
+        return f"{module}.{clsname}"
     return _ORIGIN[name]
+
+
+def method_unavailable(name: str) -> str | None:
+    """Why the method ``name`` cannot run here, in one sentence with the fix, or None.
+
+    Only a peer whose package is missing or too old has a reason, e.g. "the method 'umap'
+    needs umap-learn, which is not installed: pip install 'lowdim[peers]'".
+    """
+    check = getattr(get_method(name), "unavailable", None)
+    reason = check() if callable(check) else None
+    return f"the method {name!r} {reason}" if reason else None
+
+
+def has_transform(method: str | type) -> bool:
+    """Whether a method (registry name or class) embeds new points with ``transform``.
+
+    The fact is the class's ``transform`` method: t-SNE and SMACOF have none. A class that
+    inherits a ``transform`` it cannot honour says so with ``supports_transform = False``.
+    """
+    cls = get_method(method) if isinstance(method, str) else method
+    declared = getattr(cls, "supports_transform", None)
+    if isinstance(declared, bool):
+        return declared
+    return callable(getattr(cls, "transform", None))

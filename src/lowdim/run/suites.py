@@ -554,7 +554,7 @@ def _file_hash(fixed: dict, where: str) -> str | None:
 
 def _method_entries(table: dict, where: str) -> list[Entry]:
     from lowdim._validation import check_param
-    from lowdim.methods import get_method, import_object
+    from lowdim.methods import get_method, import_object, method_unavailable
 
     label = _check_label(table.get("label"), where)
     fixed, points = _grid({k: v for k, v in table.items() if k != "label"}, where)
@@ -572,6 +572,10 @@ def _method_entries(table: dict, where: str) -> list[Entry]:
         cls = get_method(target) if has_name else import_object(target)
     except InputError as exc:
         raise InputError(f"{where}: `{key}`: {exc}") from None
+    # a peer whose package is missing: the fix (the extra to install) before anything runs
+    missing = method_unavailable(target) if has_name else None
+    if missing:
+        raise InputError(f"{where}: {missing}")
     given = list(dict.fromkeys([*fixed, *(points[0] if points else {})]))
     defaults = method_defaults(cls, target, key, where, given)
     specs = getattr(cls, "_param_specs", {})
