@@ -244,9 +244,19 @@ def _load(spec: dict) -> tuple[Any, list[str]]:
 def _candidates(
     options: CompareOptions, median: float, n: int, plugin_names: list[str]
 ) -> tuple[list[dict], list[tuple[str, str]]]:
-    """The sweep's tables, the plugins' and the ``--with`` imports, then ``--methods``."""
+    """The sweep's tables (the built-ins, then the peers: the fast ones in the quick and
+    standard sweeps, every one in the full sweep), the plugins' and the ``--with`` imports,
+    then ``--methods``."""
+    from lowdim.methods.peers import peer_tables
+
     tables = method_tables(options.sweep, median, n)
-    left_out: list[tuple[str, str]] = []
+    peers, left_out = peer_tables(
+        "slow" if options.sweep == "full" else "fast",
+        n,
+        n_components=options.n_components,
+        quick=options.sweep == "quick",
+    )
+    tables += peers
     tables += [{"name": name} for name in plugin_names]
     for target in options.extra:
         tables.append({"import": target, "label": target.rpartition(":")[2]})

@@ -26,12 +26,9 @@ EXTEND_TARGET = "lowdim.run.extend:ExtendFromSample"
 
 
 def _has_transform(name: str) -> bool:
-    from lowdim.methods import get_method, method_names
+    from lowdim.methods import has_transform, method_names
 
-    if name not in method_names():
-        return False
-    cls = get_method(name)
-    return callable(getattr(cls, "transform", None)) and getattr(cls, "supports_transform", True)
+    return name in method_names() and has_transform(name)
 
 
 def confirmation_suite(plan: ComparePlan, leaders: list[tuple[str, dict]]) -> dict:

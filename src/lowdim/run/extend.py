@@ -66,11 +66,11 @@ class ExtendFromSample(TransformerMixin, BaseEstimator):
 
     def fit(self, X: Any, y: Any = None) -> ExtendFromSample:
         from lowdim.datasets import subsample_rows
-        from lowdim.methods import get_method
+        from lowdim.methods import get_method, has_transform
 
         X = np.asarray(X, dtype=np.float64)
         cls = get_method(self.method)
-        if not callable(getattr(cls, "transform", None)):
+        if not has_transform(cls):
             raise InputError(f"{self.method} has no out-of-sample transform to extend a fit with")
         params = dict(self.params or {})
         known = cls().get_params(deep=False)
