@@ -22,7 +22,9 @@ class FakeScores:
     sample_size: int | None = None
 
 
-def fake_score_embedding(X, Y, *, metrics=None, ks=(5,), labels=None, truth=None, random_state=0):
+def fake_score_embedding(
+    X, Y, *, metrics=None, ks=(5,), labels=None, truth=None, random_state=0, per_point_k=None
+):
     from sklearn.manifold import trustworthiness
 
     values = [("trustworthiness", k, float(trustworthiness(X, Y, n_neighbors=k))) for k in ks]
@@ -38,6 +40,7 @@ def install_fake_metrics(monkeypatch) -> None:
     module = types.ModuleType("lowdim.metrics")
     module.metric_names = lambda: list(METRIC_NAMES)
     module.score_embedding = fake_score_embedding
+    module.find_degeneracies = lambda Y, **kwargs: []
     # the criteria's facts (direction, K, scope) are the registry's, for the settings record
     module.get_metric = real.get_metric
     module.default_headline = real.default_headline

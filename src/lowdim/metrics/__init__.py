@@ -15,6 +15,7 @@ from lowdim.metrics._registry import (
     register_metric,
 )
 from lowdim.metrics.coranking import lcmc, qnx, rnx, rnx_auc
+from lowdim.metrics.degeneracy import Degeneracy, find_degeneracies
 from lowdim.metrics.distances import StressParts, distance_spearman, stress, stress_parts
 from lowdim.metrics.labels import knn_accuracy, silhouette
 from lowdim.metrics.neighbourhood import continuity, knn_recall, trustworthiness
@@ -23,6 +24,8 @@ from lowdim.metrics.recorded import fit_seconds, peak_mb
 from lowdim.metrics.truth import truth_procrustes, truth_spearman
 
 __all__ = [
+    "Degeneracy",
+    "find_degeneracies",
     "Metric",
     "PointScores",
     "Scores",

@@ -18,7 +18,7 @@ record and the ``planned`` table are additions)::
     jobs(job_id PRIMARY KEY, dataset, dataset_label, dataset_params, method, method_label,
          method_params, seed, n_components, status, error, notes, fit_seconds, peak_mb,
          n_samples, n_features, sample_size, started, finished, lowdim_version, run_id,
-         data_fingerprint, colour)
+         data_fingerprint, colour, score_seconds, diagnoses)
     scores(job_id, metric, k, value, PRIMARY KEY (job_id, metric, k))
     runs(run_id PRIMARY KEY, command, suite_name, suite_path, suite_text, environment,
          started, finished, settings, kind)
@@ -70,6 +70,8 @@ _JOB_COLUMNS = (
     "run_id",
     "data_fingerprint",
     "colour",
+    "score_seconds",
+    "diagnoses",
 )
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS jobs (
@@ -95,7 +97,9 @@ CREATE TABLE IF NOT EXISTS jobs (
     lowdim_version TEXT NOT NULL,
     run_id INTEGER,
     data_fingerprint TEXT,
-    colour TEXT
+    colour TEXT,
+    score_seconds REAL,
+    diagnoses TEXT
 );
 CREATE TABLE IF NOT EXISTS scores (
     job_id TEXT NOT NULL,
@@ -133,7 +137,12 @@ def _now() -> str:
 
 # Columns added after the first stores were written: an older store gains them on opening.
 _ADDED_COLUMNS = {
-    "jobs": (("data_fingerprint", "TEXT"), ("colour", "TEXT")),
+    "jobs": (
+        ("data_fingerprint", "TEXT"),
+        ("colour", "TEXT"),
+        ("score_seconds", "REAL"),
+        ("diagnoses", "TEXT"),
+    ),
     "runs": (("settings", "TEXT"), ("kind", "TEXT")),
 }
 
@@ -209,6 +218,12 @@ class Store:
     def colours(self) -> Path:
         return self.folder / "colours"
 
+    @property
+    def quality(self) -> Path:
+        """Per-point quality of each job, ``quality/<job_id>.npz``: ``rows`` and one array
+        per ``"metric@K"`` (Q_NX, trustworthiness and continuity terms)."""
+        return self.folder / "quality"
+
     def colour_path(self, ref: str) -> Path:
         """The file of a job's ``colour`` reference."""
         return self.colours / f"{ref.partition(':')[2]}.npy"
@@ -278,6 +293,13 @@ class Store:
         ok = result["status"] == "ok" and result.get("embedding") is not None
         if ok:
             self._write_array(self.embeddings / f"{job.job_id}.npy", result["embedding"])
+        if ok and result.get("quality") is not None:
+            rows, values = result["quality"]
+            arrays = {f"{m}@{k}": np.asarray(v) for (m, k), v in values.items()}
+            self.quality.mkdir(exist_ok=True)
+            with atomic_path(self.quality / f"{job.job_id}.npz") as temporary:
+                with open(temporary, "wb") as fh:
+                    np.savez(fh, rows=np.asarray(rows), **arrays)
         colour = None
         if result.get("colour") is not None:
             kind, values = result["colour"]
@@ -308,6 +330,8 @@ class Store:
             run_id,
             result.get("data_fingerprint"),
             colour,
+            result.get("score_seconds"),
+            None if result.get("diagnoses") is None else _json(result["diagnoses"]),
         )
         db = self.db
         db.execute("BEGIN IMMEDIATE")

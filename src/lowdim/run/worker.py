@@ -21,6 +21,7 @@ from threadpoolctl import threadpool_limits
 
 from lowdim.run.datafiles import check_data_file, dask_worker_address, where_am_i
 from lowdim.run.limits import Outcome, lift_memory_limit, run_limited, tell_parent
+from lowdim.run.settings import headline_k
 from lowdim.run.suites import RUNNER_METRICS, Job
 
 __all__ = [
@@ -162,6 +163,8 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         values: list[tuple[str, int, float]] = []
         notes: list[str] = []
         sample_size = None
+        quality = None
+        tic = time.perf_counter()
         if wanted is None or wanted:
             scores = metrics.score_embedding(
                 X,
@@ -171,10 +174,18 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
                 labels=data.labels,
                 truth=data.truth,
                 random_state=job.seed,
+                per_point_k=headline_k(job.neighbors),
             )
             values = [(str(m), int(k or 0), float(v)) for m, k, v in scores.values]
             notes = [str(n) for n in (scores.notes or [])]
             sample_size = scores.sample_size
+            if getattr(scores, "per_point", None):
+                quality = (scores.per_point_rows, scores.per_point)
+        diagnoses = [
+            d.as_dict()
+            for d in metrics.find_degeneracies(Y, X=X, fitted=estimator, random_state=job.seed)
+        ]
+        score_seconds = time.perf_counter() - tic
     # Warnings (a disconnected graph, a solver fallback) belong to the job: kept in its notes
     # rather than printed by every job process onto the terminal.
     seen = [f"{w.category.__name__}: {w.message}" for w in caught]
@@ -193,6 +204,9 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         "n_features": int(X.shape[1]),
         "data_fingerprint": fingerprint,
         "colour": colour,
+        "quality": quality,
+        "diagnoses": diagnoses,
+        "score_seconds": score_seconds,
         "started": started,
         "finished": _now(),
     }
