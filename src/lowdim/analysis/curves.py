@@ -10,7 +10,15 @@ import pandas as pd
 
 from lowdim.analysis.results import Results, canonical
 
-__all__ = ["rnx_curves", "bandwidth_curves", "scaling_table", "loglog_slope", "gallery_panels"]
+__all__ = [
+    "rnx_curves",
+    "bandwidth_curves",
+    "scaling_table",
+    "loglog_slope",
+    "gallery_panels",
+    "quality_panels",
+    "degenerate_panels",
+]
 
 
 def rnx_curves(table: pd.DataFrame) -> pd.DataFrame:
@@ -155,3 +163,71 @@ def gallery_panels(
                 {"dataset": data, "method": method, "Y": Y, "colour": colour, "kind": kind}
             )
     return panels, list(dict.fromkeys(notes))
+
+
+def quality_panels(
+    results: Results, leaders: list[str], key: str, max_datasets: int = 3
+) -> tuple[list[dict], str]:
+    """The first seed's embeddings of ``leaders`` coloured by each point's quality ``key``
+    (``"qnx@10"``, a per-point criterion the runner stored in ``quality/<job_id>.npz``).
+
+    Points outside a sampled set of query rows get NaN (drawn grey). Returns the panels
+    (``dataset, method, Y, colour, kind="quality"``) and the key found (the first stored one
+    when ``key`` is absent).
+    """
+    ok = results.jobs[(results.jobs["status"] == "ok") & results.jobs["config"].isin(leaders)]
+    if ok.empty:
+        return [], key
+    first = ok[ok["seed"] == ok["seed"].min()]
+    panels = []
+    for data in list(dict.fromkeys(first["data"]))[:max_datasets]:
+        rows = first[first["data"] == data].set_index("config")
+        for method in leaders:
+            if method not in rows.index:
+                continue
+            job_id = rows.loc[method, "job_id"]
+            path = results.out_dir / "quality" / f"{job_id}.npz"
+            embedding = results.embedding_path(job_id)
+            if not path.is_file() or not embedding.is_file():
+                continue
+            stored = np.load(path)
+            names = [n for n in stored.files if n != "rows"]
+            if not names:
+                continue
+            if key not in names:
+                key = next((n for n in names if n.startswith("qnx@")), names[0])
+            Y = np.load(embedding)
+            colour = np.full(len(Y), np.nan)
+            colour[stored["rows"]] = stored[key]
+            panels.append(
+                {"dataset": data, "method": method, "Y": Y, "colour": colour, "kind": "quality"}
+            )
+    return panels, key
+
+
+def degenerate_panels(results: Results, diagnoses: pd.DataFrame, limit: int = 6) -> list[dict]:
+    """Up to ``limit`` embeddings in which the runner found a degeneracy, one per
+    (configuration, dataset, kind), first seed, coloured as in the gallery."""
+    if diagnoses.empty:
+        return []
+    picked = diagnoses.sort_values("seed").drop_duplicates(["method", "dataset", "kind"])
+    jobs = results.jobs.set_index("job_id")
+    panels = []
+    for row in picked.head(limit).itertuples():
+        path = results.embedding_path(row.job_id)
+        if not path.is_file():
+            continue
+        Y = np.load(path)
+        stored = results.colours(jobs.loc[row.job_id])
+        colour, kind = (None, "order") if stored is None else (stored[1], stored[0])
+        panels.append(
+            {
+                "dataset": row.dataset,
+                "method": row.method,
+                "finding": row.kind.replace("_", " "),
+                "Y": Y,
+                "colour": colour if colour is not None and len(colour) == len(Y) else None,
+                "kind": kind,
+            }
+        )
+    return panels

@@ -13,6 +13,7 @@ them ranks or tests anything itself.
 
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import dataclass, field, replace
 
@@ -173,6 +174,7 @@ class Analysis:
     fraction: float = BREAKDOWN_FRACTION
     notes: list[str] = field(default_factory=list)
     confirmation: Confirmation | None = None
+    diagnoses: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def spec_of(self, method: str) -> dict:
         """The method spec a configuration ran with: ``name`` (or ``import``) and parameters."""
@@ -436,7 +438,41 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
         scaling_fits=fits,
         rnx=rnx_curves(every_score),
         confirmation=_confirmation(results, order, settings, families),
+        diagnoses=_diagnoses(results),
     )
+
+
+DIAGNOSIS_COLUMNS = [
+    "job_id",
+    "dataset",
+    "method",
+    "seed",
+    "kind",
+    "value",
+    "threshold",
+    "explanation",
+    "coordinate",
+    "component",
+    "size",
+]
+
+
+def _diagnoses(results: Results) -> pd.DataFrame:
+    """The degeneracies the runner found in each finished job's embedding, one row each."""
+    jobs = results.jobs
+    if "diagnoses" not in jobs:
+        return pd.DataFrame(columns=DIAGNOSIS_COLUMNS)
+    rows = []
+    for job in jobs[jobs["status"] == "ok"].itertuples():
+        text = job.diagnoses
+        if not isinstance(text, str) or not text:
+            continue
+        for found in json.loads(text):
+            rows.append(
+                {"job_id": job.job_id, "dataset": job.data, "method": job.config, "seed": job.seed}
+                | found
+            )
+    return pd.DataFrame(rows, columns=DIAGNOSIS_COLUMNS)
 
 
 EXTENDED = ", extended]"

@@ -12,7 +12,7 @@ from pathlib import Path
 
 from lowdim import __version__
 from lowdim._files import write_bytes, write_text
-from lowdim.analysis.curves import gallery_panels
+from lowdim.analysis.curves import degenerate_panels, gallery_panels, quality_panels
 from lowdim.analysis.engine import Analysis, analyse_folder
 from lowdim.report import figures as plots
 from lowdim.report.format import p_value
@@ -28,11 +28,22 @@ from lowdim.report.tables import (
     stats_json,
 )
 from lowdim.report.views import criterion_title
+from lowdim.run.settings import headline_k
 
 __all__ = ["build_report", "write_tables", "draw_figures"]
 
 # The figures a report may hold; only these are replaced in figures/ when a report is rebuilt.
-FIGURES = ("gallery", "cd", "heatmap", "rnx", "bandwidth", "scaling", "breakdown")
+FIGURES = (
+    "gallery",
+    "cd",
+    "heatmap",
+    "rnx",
+    "bandwidth",
+    "scaling",
+    "breakdown",
+    "quality",
+    "degenerate",
+)
 
 
 def write_tables(an: Analysis) -> list[Path]:
@@ -59,6 +70,8 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
         (folder / f"{name}.png").unlink(missing_ok=True)
     leaders = an.leaders()
     panels, notes = gallery_panels(an.results, leaders)
+    k = headline_k(sorted({c.k for c in an.settings.criteria if c.k}) or [10])
+    quality, quality_key = quality_panels(an.results, leaders[:3], f"qnx@{k}")
     seed = an.results.jobs.loc[an.results.jobs["status"] == "ok", "seed"].min()
     effect = effect_criterion(an)
     sel = an.tests.get(an.selection)
@@ -77,6 +90,10 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
             an.breakdown[an.breakdown["criterion"] == effect],
             an.fraction,
             folder / "breakdown.png",
+        ),
+        "quality": plots.embedding_gallery(quality, folder / "quality.png"),
+        "degenerate": plots.degenerate_embeddings(
+            degenerate_panels(an.results, an.diagnoses), folder / "degenerate.png"
         ),
         "cd": plots.critical_difference_diagram(
             dict(sel.mean_ranks) if sel is not None else {},
@@ -107,6 +124,13 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
         "exponent (1 = linear, 2 = quadratic).",
         "breakdown": f"{title} along each stress axis; a circle marks the breakdown point, the "
         f"first value below {an.fraction:.0%} of the configuration's own best.",
+        "quality": f"Where each map keeps and loses neighbourhoods: every point coloured by its "
+        f"own Q_NX ({quality_key}: the share of its {quality_key.partition('@')[2]} nearest "
+        "neighbours in the data that are also its nearest in the embedding; 1 = all kept, "
+        "0 = none). Dark patches are where the map tears or glues; grey points lie outside a "
+        "sampled set of query rows.",
+        "degenerate": "Embeddings in which a degeneracy was found (first seed), titled with "
+        "what was found; the table above gives the evidence.",
     }
     return figures, captions
 

@@ -49,6 +49,7 @@ __all__ = [
     "style_for",
     "embedding_gallery",
     "gap_heatmap",
+    "degenerate_embeddings",
     "rnx_curves",
     "critical_difference_diagram",
     "bandwidth_sensitivity",
@@ -125,6 +126,7 @@ _KIND_TEXT = {
     "labels": "class",
     "pc1": "first principal component of the data",
     "order": "row order",
+    "quality": "each point's Q_NX (share of its neighbours kept)",
 }
 
 
@@ -182,8 +184,21 @@ def embedding_gallery(panels: list[dict], path: Path) -> Path | None:
                 )
         else:
             values = np.arange(len(Y)) if colour is None else np.asarray(colour, dtype=float)
+            missing = ~np.isfinite(values)
+            if missing.any():  # points outside a sampled set of query rows
+                ax.scatter(
+                    Y[missing, 0], y2[missing], c="#cccccc", s=size, linewidths=0, rasterized=True
+                )
+            bounds = {"vmin": 0.0, "vmax": 1.0} if p["kind"] == "quality" else {}
             points = ax.scatter(
-                Y[:, 0], y2, c=values, cmap=_CMAP, s=size, linewidths=0, rasterized=True
+                Y[~missing, 0],
+                y2[~missing],
+                c=values[~missing],
+                cmap=_CMAP,
+                s=size,
+                linewidths=0,
+                rasterized=True,
+                **bounds,
             )
             if p["dataset"] not in keyed:
                 bar = fig.colorbar(points, ax=key_ax, fraction=0.5, aspect=12, location="left")
@@ -200,6 +215,42 @@ def embedding_gallery(panels: list[dict], path: Path) -> Path | None:
         axes[i, 0].set_axis_on()
         axes[i, 0].set_ylabel(_wrap(d, 24), fontsize=7)
     fig.subplots_adjust(hspace=0.08, wspace=0.08)
+    return _save(fig, path)
+
+
+def degenerate_embeddings(panels: list[dict], path: Path) -> Path | None:
+    """One small picture per degenerate embedding, titled with what was found.
+
+    Each panel is a dict with ``dataset``, ``method``, ``finding``, ``Y``, ``colour`` and
+    ``kind`` (as in :func:`embedding_gallery`).
+    """
+    if not panels:
+        return None
+    _theme()
+    rows, cols = _grid(len(panels), 3)
+    fig, axes = plt.subplots(rows, cols, figsize=(2.6 * cols, 2.7 * rows), squeeze=False)
+    for ax in axes.ravel():
+        ax.set_axis_off()
+    for ax, p in zip(axes.ravel(), panels, strict=False):
+        ax.set_axis_on()
+        Y = np.asarray(p["Y"], dtype=float)
+        y2 = Y[:, 1] if Y.shape[1] > 1 else np.zeros(len(Y))
+        colour = p.get("colour")
+        size = max(1.5, min(8.0, 3000.0 / max(len(Y), 1)))
+        if p["kind"] == "labels" and colour is not None:
+            classes = list(dict.fromkeys(np.asarray(colour).tolist()))
+            codes = [classes.index(c) for c in np.asarray(colour).tolist()]
+            ax.scatter(Y[:, 0], y2, c=[PALETTE[c % 8] for c in codes], s=size, linewidths=0)
+        else:
+            values = np.arange(len(Y)) if colour is None else np.asarray(colour, dtype=float)
+            ax.scatter(Y[:, 0], y2, c=values, cmap=_CMAP, s=size, linewidths=0)
+        ax.set_xticks([])
+        ax.set_yticks([])
+        title = (
+            f"{_short(p['finding'], 30)}\n{_short(p['method'], 32)}\n{_short(p['dataset'], 32)}"
+        )
+        ax.set_title(title, fontsize=7)
+    fig.subplots_adjust(hspace=0.55, wspace=0.15)
     return _save(fig, path)
 
 

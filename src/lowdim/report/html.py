@@ -281,6 +281,8 @@ def render_report(
             ("breakdown", "breakdown curves"),
             ("bandwidth", "bandwidth sensitivity"),
             ("scaling", "scaling curves"),
+            ("quality", "per-point quality of the leading configurations"),
+            ("degenerate", "degenerate embeddings"),
         )
     }
     fits = []
@@ -313,6 +315,10 @@ def render_report(
         "effect_title": criterion_title(effect_criterion(an)),
         "profiles": method_profiles(an),
         "fits": fits,
+        "diagnoses": [
+            [r.method, r.dataset, f"{r.seed:g}", r.kind.replace("_", " "), r.explanation]
+            for r in an.diagnoses.drop_duplicates(["method", "dataset", "kind"]).itertuples()
+        ],
         "stability": _stability(an),
         "failures": _failures(an),
         "overview": _overview(an),

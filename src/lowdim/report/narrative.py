@@ -229,6 +229,7 @@ def method_profiles(an: Analysis) -> dict[str, list[str]]:
                         f"Median gap to the best over the {len(best_per)} datasets: "
                         f"{fmt.number(float(best_per['gap'].median()))}."
                     )
+        lines += degeneracy_lines(an, configs)
         lines += _breakdown_lines(an, configs, key)
         lines += _failure_lines(an.failures, fam)
         lines += _bandwidth_lines(an.bandwidth, fam)
@@ -397,3 +398,19 @@ def candidates_reading(an: Analysis) -> str | None:
     if left:
         text += "; left out: " + "; ".join(f"{name} ({why})" for name, why in left)
     return text + "."
+
+
+def degeneracy_lines(an: Analysis, configs: list[str]) -> list[str]:
+    """One sentence per kind of degeneracy found in ``configs``' embeddings: where, how often,
+    and the first finding's own words."""
+    found = an.diagnoses[an.diagnoses["method"].isin(configs)]
+    lines = []
+    for kind, part in found.groupby("kind", sort=True):
+        cases = part.drop_duplicates(["method", "dataset"])
+        where = _names([f"{r.method} on {r.dataset}" for r in cases.itertuples()], limit=2)
+        first = part.iloc[0]
+        lines.append(
+            f"{kind.replace('_', ' ').capitalize()} in {len(cases)} embedding(s) ({where}): "
+            f"{first['explanation']}."
+        )
+    return lines

@@ -22,6 +22,7 @@ from lowdim.report.narrative import (
     candidates_reading,
     confirmation_reading,
     consistency,
+    degeneracy_lines,
     strength,
     verdict,
 )
@@ -195,6 +196,12 @@ def _is_number(text: str) -> bool:
 def _cautions(an: Analysis, values: pd.DataFrame) -> list[str]:
     context = an.settings.context
     lines = []
+    flagged = degeneracy_lines(an, [an.winner]) if an.winner else []
+    if flagged:
+        lines.append(
+            f"Check the winner's picture before using it: {' '.join(flagged)} A high score "
+            "does not rule these out."
+        )
     duplicates = int(context.get("n_duplicates", 0) or 0)
     if duplicates:
         lines.append(
