@@ -175,6 +175,7 @@ class Analysis:
     notes: list[str] = field(default_factory=list)
     confirmation: Confirmation | None = None
     diagnoses: pd.DataFrame = field(default_factory=pd.DataFrame)
+    published: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def spec_of(self, method: str) -> dict:
         """The method spec a configuration ran with: ``name`` (or ``import``) and parameters."""
@@ -439,6 +440,7 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
         rnx=rnx_curves(every_score),
         confirmation=_confirmation(results, order, settings, families),
         diagnoses=_diagnoses(results),
+        published=_published(settings, summary),
     )
 
 
@@ -473,6 +475,45 @@ def _diagnoses(results: Results) -> pd.DataFrame:
                 | found
             )
     return pd.DataFrame(rows, columns=DIAGNOSIS_COLUMNS)
+
+
+PUBLISHED_COLUMNS = [
+    "dataset",
+    "method",
+    "criterion",
+    "published",
+    "measured",
+    "difference",
+    "source",
+    "table",
+    "note",
+]
+
+
+def _published(settings: Settings, summary: pd.DataFrame) -> pd.DataFrame:
+    """Each published figure beside the run's own (the block mean over seeds) and their
+    difference, measured minus published; NaN where the run has no such cell."""
+    if not settings.published:
+        return pd.DataFrame(columns=PUBLISHED_COLUMNS)
+    means = summary.set_index(["dataset", "method", "criterion"])["mean"]
+    rows = []
+    for row in settings.published:
+        key = (row["dataset"], row["method"], row["criterion"])
+        measured = float(means.get(key, math.nan))
+        rows.append(
+            {
+                "dataset": row["dataset"],
+                "method": row["method"],
+                "criterion": row["criterion"],
+                "published": float(row["value"]),
+                "measured": measured,
+                "difference": measured - float(row["value"]),
+                "source": row["source"],
+                "table": row["table"],
+                "note": row.get("note", ""),
+            }
+        )
+    return pd.DataFrame(rows, columns=PUBLISHED_COLUMNS)
 
 
 EXTENDED = ", extended]"

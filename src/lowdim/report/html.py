@@ -315,6 +315,19 @@ def render_report(
         "effect_title": criterion_title(effect_criterion(an)),
         "profiles": method_profiles(an),
         "fits": fits,
+        "published": [
+            [
+                r.dataset,
+                r.method,
+                criterion_title(r.criterion),
+                fmt.number(r.published),
+                fmt.number(r.measured) if math.isfinite(r.measured) else "not measured",
+                fmt.number(r.difference) if math.isfinite(r.difference) else "–",
+                f"{r.source}, {r.table}" + (f" ({r.note})" if r.note else ""),
+            ]
+            for r in an.published.itertuples()
+        ],
+        "unprinted": list(an.settings.unprinted),
         "diagnoses": [
             [r.method, r.dataset, f"{r.seed:g}", r.kind.replace("_", " "), r.explanation]
             for r in an.diagnoses.drop_duplicates(["method", "dataset", "kind"]).itertuples()

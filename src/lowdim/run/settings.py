@@ -106,6 +106,9 @@ class Settings:
         What a comparison found in the data (for its cautions); empty for a suite.
     tie_break : str
         The tie-break rule in words (:data:`TIE_BREAK`), as the outputs state it.
+    published, unprinted : tuple
+        Published figures to set beside the measured ones (:mod:`lowdim.run.published`), and
+        the settings the publication does not print.
     """
 
     criteria: tuple[Criterion, ...]
@@ -118,6 +121,8 @@ class Settings:
     blocks: str = "datasets"
     context: dict[str, Any] = field(default_factory=dict)
     tie_break: str = TIE_BREAK
+    published: tuple[dict, ...] = ()
+    unprinted: tuple[str, ...] = ()
 
     def criterion(self, key: str) -> Criterion:
         for c in self.criteria:
@@ -137,8 +142,8 @@ class Settings:
     def from_json(cls, text: str) -> Settings:
         data = json.loads(text)
         data["criteria"] = tuple(Criterion(**c) for c in data["criteria"])
-        for key in ("headline", "simpler_first", "candidates"):
-            data[key] = tuple(data[key])
+        for key in ("headline", "simpler_first", "candidates", "published", "unprinted"):
+            data[key] = tuple(data.get(key, ()))
         return cls(**data)
 
 
@@ -216,4 +221,6 @@ def resolve_settings(
         families=families,
         blocks=blocks,
         context=dict(context or {}),
+        published=tuple(suite.published),
+        unprinted=tuple(suite.unprinted),
     )

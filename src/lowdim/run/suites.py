@@ -24,6 +24,7 @@ from typing import Any
 
 from lowdim import __version__
 from lowdim.errors import InputError, suggestion
+from lowdim.run.published import read_published
 from lowdim.run.suite_checks import check_construction, check_memory, file_size, method_defaults
 
 __all__ = ["Job", "Suite", "load_suite", "suite_from_dict", "parse_memory", "ordinal"]
@@ -41,6 +42,8 @@ SUITE_KEYS = (
     "alpha",
     "threads",
     "description",
+    "published",
+    "unprinted",
 )
 TOP_KEYS = ("suite", "datasets", "methods")
 DEFAULTS: dict[str, Any] = {
@@ -55,6 +58,8 @@ DEFAULTS: dict[str, Any] = {
     "alpha": 0.05,
     "threads": 1,
     "description": "",
+    "published": (),
+    "unprinted": (),
 }
 # Criteria the runner measures itself; they are stored as scores but never asked of the scorer.
 RUNNER_METRICS = ("fit_seconds", "peak_mb")
@@ -141,6 +146,10 @@ class Suite:
     description: str
     datasets: tuple[Entry, ...]
     methods: tuple[Entry, ...]
+    # published figures to set beside the measured ones (lowdim.run.published) and the
+    # settings the publication does not print
+    published: tuple[dict, ...] = ()
+    unprinted: tuple[str, ...] = ()
 
     def jobs(self) -> list[Job]:
         """Every (dataset, method, seed) job, dataset-major, with stable ids."""
@@ -239,6 +248,8 @@ def suite_from_dict(data: dict, source: str = "<suite>", text: str | None = None
             )
     settings = _check_settings(data.get("suite"), source)
     base = Path(source).parent if source and not source.startswith("<") else Path(".")
+    if settings["published"]:
+        settings["published"] = read_published(base / settings["published"], f"{source}: [suite]")
     datasets = _tables(data, "datasets", source)
     methods = _tables(data, "methods", source)
     dataset_entries = [
@@ -326,6 +337,16 @@ def _check_settings(table: Any, source: str) -> dict:
                 f'{where}: `select` must be "overall" or one criterion, got {select!r}'
             )
         _criterion_entry(select, known, metrics, out["neighbors"], where, "select")
+    published = out["published"]
+    if published and not isinstance(published, str):
+        raise InputError(f"{where}: `published` must be the path of a CSV file, got {published!r}")
+    unprinted = out["unprinted"]
+    if not isinstance(unprinted, list | tuple) or not all(isinstance(u, str) for u in unprinted):
+        raise InputError(
+            f"{where}: `unprinted` must be a list of strings (the settings a publication does "
+            "not print, with the values chosen here)"
+        )
+    out["unprinted"] = tuple(unprinted)
     alpha = out["alpha"]
     if isinstance(alpha, bool) or not isinstance(alpha, int | float) or not 0 < alpha < 0.5:
         raise InputError(
