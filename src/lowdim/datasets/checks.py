@@ -110,6 +110,11 @@ def numeric_matrix(frame: pd.DataFrame, where: str, notes: list[str] | None = No
     never turned into their internal integers (a date would become nanoseconds). True / false
     columns are read as 1 / 0, and a :class:`DataWarning` says so (kept in ``notes``).
     """
+    plain = [
+        pd.api.types.is_float_dtype(d) or pd.api.types.is_integer_dtype(d) for d in frame.dtypes
+    ]
+    if all(plain):  # ordinary numbers throughout: nothing to refuse or to say, one conversion
+        return np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
     converted = {}
     booleans = []
     for column in frame.columns:

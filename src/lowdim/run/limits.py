@@ -296,6 +296,9 @@ def run_limited(
             fn, args, timeout=timeout, memory_limit=memory_limit, watch_pid=watch_pid
         )
     preload()
+    prepare = getattr(fn, "prepare", None)
+    if prepare is not None:  # work the children share, done once here before forking
+        prepare(*args)
     facts: dict = {}
     with tempfile.TemporaryFile() as captured:
         outcome = _run_forked(fn, args, timeout, memory_limit, watch_pid, captured, facts)

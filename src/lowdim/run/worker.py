@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 from threadpoolctl import threadpool_limits
 
+from lowdim.run import datacache
 from lowdim.run.datafiles import check_data_file, dask_worker_address, where_am_i
 from lowdim.run.limits import Outcome, lift_memory_limit, run_limited, tell_parent
 from lowdim.run.settings import headline_k
@@ -132,7 +133,13 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
     started = _now()
     with threadpool_limits(limits=job.threads), warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        data = datasets.load(dict(job.dataset_spec))
+        kept = datacache.cached(job)
+        if kept is None:
+            data = datasets.load(dict(job.dataset_spec))
+        else:
+            data, raised = kept
+            for w in raised:  # the job's notes are the same whoever loaded the data
+                warnings.warn(w.message, w.category, stacklevel=1)
         X = np.asarray(data.X, dtype=np.float64)
         # Known to the parent even if a limit stops the fit: where a method stops is a result.
         tell_parent(n_samples=int(X.shape[0]), n_features=int(X.shape[1]))
@@ -210,6 +217,11 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
         "started": started,
         "finished": _now(),
     }
+
+
+# The process that forks a job's child loads the job's small dataset first (lowdim.run.limits
+# calls this before forking), so the children of one worker share one load.
+execute_job.prepare = datacache.warm  # type: ignore[attr-defined]
 
 
 def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | None = None) -> dict:
