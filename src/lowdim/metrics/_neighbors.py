@@ -169,6 +169,23 @@ def knn_lists(Z: np.ndarray, k: int) -> np.ndarray:
     return out
 
 
+def query_knn(Z: np.ndarray, rows: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
+    """The k nearest neighbours of the given ``rows`` of Z (self excluded) and their
+    distances, nearest first: a k-d tree in few dimensions, blocked products in many."""
+    rows = np.asarray(rows, dtype=np.intp)
+    if Z.shape[1] > TREE_MAX_DIM or k + 2 > Z.shape[0]:
+        idx = _brute_knn(Z, rows, k)
+    else:
+        _, found = cKDTree(Z).query(Z[rows], k=k + 1, workers=-1)
+        is_self = found == rows[:, None]
+        drop = np.where(is_self.any(axis=1), is_self.argmax(axis=1), k)
+        keep = np.ones(found.shape, dtype=bool)
+        keep[np.arange(rows.size), drop] = False
+        idx = found[keep].reshape(rows.size, k)
+    dist = np.sqrt(np.sum((Z[rows][:, None, :] - Z[idx]) ** 2, axis=-1))
+    return idx, dist
+
+
 def _brute_knn(Z: np.ndarray, rows: np.ndarray, k: int) -> np.ndarray:
     n = Z.shape[0]
     z_half = half_sq_norms(Z)
