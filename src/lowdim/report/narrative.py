@@ -378,6 +378,17 @@ def confirmation_reading(an: Analysis) -> list[str]:
             "transform, each setting lies at this Procrustes disparity from its whole-file fit "
             f"(0 = the same up to rotation and scale, 1 = unrelated): {'; '.join(parts)}."
         )
+    without = [m for m in c.resample_order if m not in c.disparity]
+    if without and c.disparity:
+        out.append(
+            f"The extension is not available for {_names(without)}: "
+            "the method has no out-of-sample transform."
+        )
+    elif without:
+        out.append(
+            f"No leading setting has an out-of-sample transform ({_names(without)}), so how far "
+            "a subsample fit lies from the whole-file fit is not measured."
+        )
     if c.failures:
         shown = "; ".join(f"{m} ({s}: {e})" for m, s, e in c.failures[:3])
         out.append(f"{len(c.failures)} confirmation job(s) did not finish: {shown}.")
