@@ -106,6 +106,8 @@ class Confirmation:
         Configuration -> Procrustes disparity between its fit on the first resample extended
         to every row and its whole-file fit (for configurations with a ``transform``).
     failures : list of (configuration, status, message)
+    extendable : tuple of str
+        The configurations that have an out-of-sample ``transform`` (an extension was run).
     """
 
     dataset: str
@@ -115,6 +117,7 @@ class Confirmation:
     values: pd.DataFrame
     disparity: dict[str, float]
     failures: list[tuple[str, str, str]]
+    extendable: tuple[str, ...] = ()
 
     @property
     def held(self) -> bool:
@@ -578,6 +581,9 @@ def _confirmation(
         values=values.reindex(index=configs, columns=keys),
         disparity=disparity,
         failures=failures,
+        extendable=tuple(
+            m for m in configs if jobs["config"].str.startswith(f"{m} [fitted on").any()
+        ),
     )
 
 

@@ -378,8 +378,8 @@ def confirmation_reading(an: Analysis) -> list[str]:
             "transform, each setting lies at this Procrustes disparity from its whole-file fit "
             f"(0 = the same up to rotation and scale, 1 = unrelated): {'; '.join(parts)}."
         )
-    without = [m for m in c.resample_order if m not in c.disparity]
-    if without and c.disparity:
+    without = [m for m in c.resample_order if m not in c.extendable]
+    if without and c.extendable:
         out.append(
             f"The extension is not available for {_names(without)}: "
             "the method has no out-of-sample transform."
