@@ -124,6 +124,11 @@ def test_every_figure_draws_and_skips_empty_input(tmp_path: Path) -> None:
         columns=["method", "quantity", "slope", "n_points"],
     )
     assert _is_png(plots.scaling_curves(scaling, fits, tmp_path / "s.png"))
+    stops = pd.DataFrame(
+        [("pca", 30000, "memory"), ("laplacian_eigenmaps", 10000, "timeout")],
+        columns=["method", "n_samples", "status"],
+    )
+    assert _is_png(plots.scaling_curves(scaling, fits, tmp_path / "s2.png", stops))
 
     breakdown = pd.DataFrame(
         [

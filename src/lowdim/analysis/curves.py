@@ -14,6 +14,7 @@ __all__ = [
     "rnx_curves",
     "bandwidth_curves",
     "scaling_table",
+    "scaling_stops",
     "loglog_slope",
     "gallery_panels",
     "quality_panels",
@@ -124,6 +125,21 @@ def scaling_table(results: Results) -> tuple[pd.DataFrame, pd.DataFrame]:
                 }
             )
     return points, pd.DataFrame(fits)
+
+
+def scaling_stops(results: Results) -> pd.DataFrame:
+    """Where each configuration stopped along n: the smallest n at which a job hit its time or
+    memory limit, for dataset names whose n varies. Columns ``method, n_samples, status``."""
+    jobs = results.jobs.dropna(subset=["n_samples"])
+    varying = jobs.groupby("dataset")["n_samples"].nunique()
+    jobs = jobs[jobs["dataset"].isin(varying[varying >= 2].index)]
+    stopped = jobs[jobs["status"].isin(["timeout", "memory"])]
+    if stopped.empty:
+        return pd.DataFrame(columns=["method", "n_samples", "status"])
+    first = stopped.sort_values("n_samples").drop_duplicates("config")
+    return first.rename(columns={"config": "method"})[
+        ["method", "n_samples", "status"]
+    ].reset_index(drop=True)
 
 
 def gallery_panels(

@@ -22,7 +22,7 @@ import pandas as pd
 
 from lowdim.analysis import stats
 from lowdim.analysis.breakdown import BREAKDOWN_FRACTION, breakdown_table
-from lowdim.analysis.curves import bandwidth_curves, rnx_curves, scaling_table
+from lowdim.analysis.curves import bandwidth_curves, rnx_curves, scaling_stops, scaling_table
 from lowdim.analysis.ranking import (
     gaps_to_best,
     natural_key,
@@ -174,6 +174,7 @@ class Analysis:
     scaling: pd.DataFrame
     scaling_fits: pd.DataFrame
     rnx: pd.DataFrame
+    scaling_stops: pd.DataFrame
     fraction: float = BREAKDOWN_FRACTION
     notes: list[str] = field(default_factory=list)
     confirmation: Confirmation | None = None
@@ -441,6 +442,7 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
         scaling=points,
         scaling_fits=fits,
         rnx=rnx_curves(every_score),
+        scaling_stops=scaling_stops(results),
         confirmation=_confirmation(results, order, settings, families),
         diagnoses=_diagnoses(results),
         published=_published(settings, summary),

@@ -85,7 +85,9 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
         else None,
         "rnx": plots.rnx_curves(an.rnx, folder / "rnx.png"),
         "bandwidth": plots.bandwidth_sensitivity(an.bandwidth, effect, folder / "bandwidth.png"),
-        "scaling": plots.scaling_curves(an.scaling, an.scaling_fits, folder / "scaling.png"),
+        "scaling": plots.scaling_curves(
+            an.scaling, an.scaling_fits, folder / "scaling.png", an.scaling_stops
+        ),
         "breakdown": plots.breakdown_curves(
             an.breakdown[an.breakdown["criterion"] == effect],
             an.fraction,
@@ -121,7 +123,8 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
         "bandwidth": f"{title} against a fixed bandwidth sigma; stars mark what a rule chose, "
         "where the run recorded the chosen sigma (otherwise a dotted line at the rule's score).",
         "scaling": "Fit time and peak memory against n, log-log; the slope is the fitted "
-        "exponent (1 = linear, 2 = quadratic).",
+        "exponent (1 = linear, 2 = quadratic); a cross marks the first n at which a method hit "
+        "its time limit (left) or its memory limit (right).",
         "breakdown": f"{title} along each stress axis; a circle marks the breakdown point, the "
         f"first value below {an.fraction:.0%} of the configuration's own best.",
         "quality": f"Where each map keeps and loses neighbourhoods: every point coloured by its "

@@ -485,11 +485,14 @@ def bandwidth_sensitivity(
     return _save(fig, path)
 
 
-def scaling_curves(scaling: pd.DataFrame, fits: pd.DataFrame, path: Path) -> Path | None:
+def scaling_curves(
+    scaling: pd.DataFrame, fits: pd.DataFrame, path: Path, stops: pd.DataFrame | None = None
+) -> Path | None:
     """Fit time and peak memory against n on log-log axes, with each method's fitted slope.
 
     ``scaling`` has ``method, n_samples, fit_seconds, peak_mb``; ``fits`` has ``method,
-    quantity, slope``.
+    quantity, slope``; ``stops`` (``method, n_samples, status``) marks, on the axis of the
+    limit that stopped it, the first n where a method hit its time or memory limit.
     """
     if scaling.empty or scaling["n_samples"].nunique() < 2:
         return None
@@ -518,6 +521,21 @@ def scaling_curves(scaling: pd.DataFrame, fits: pd.DataFrame, path: Path) -> Pat
                 markeredgewidth=0.4,
                 label=_short(m, 30) + tag,
                 **styles[m],
+            )
+        limit = "timeout" if quantity == "fit_seconds" else "memory"
+        for _, stop in (stops if stops is not None else pd.DataFrame()).iterrows():
+            if stop["status"] != limit or stop["method"] not in styles or not ax.lines:
+                continue
+            top = max(line.get_ydata().max() for line in ax.lines)
+            ax.plot(
+                stop["n_samples"],
+                top,
+                marker="X",
+                markersize=9,
+                linestyle="none",
+                color=styles[stop["method"]]["color"],
+                markeredgecolor=_EDGE,
+                label=f"{_short(stop['method'], 24)}: {limit} at n = {int(stop['n_samples']):,}",
             )
         _log_axis(ax, "x")
         _log_axis(ax, "y")
