@@ -265,3 +265,19 @@ def test_an_archive_of_python_objects_is_refused_in_one_line(tmp_path, out, caps
     args = ["embed", path, "--method", "pca", "--out", out / "e.csv"]
     status, _, err = run_cli(args, capsys)
     assert_one_line_error(status, err, "'labels' holds Python objects", "astype(str)")
+
+
+def test_compare_and_embed_scale_extreme_values_when_asked(tmp_path, out, capsys):
+    rows = [tuple(f"{v:.17g}" for v in READINGS[i] * 1e300) for i in range(40)]
+    path = write_csv(tmp_path / "extreme.csv", ["girth", "height", "crown"], rows)
+    args = ["embed", path, "--method", "pca", "--scale", "standard", "--out", out / "e.npy"]
+    status, _, err = run_cli(args, capsys)
+    assert status == 0, err
+    z = (READINGS - READINGS.mean(axis=0)) / READINGS.std(axis=0)
+    expected = PCA(n_components=2).fit_transform(z)  # scikit-learn, up to column signs
+    assert_allclose(np.abs(np.load(out / "e.npy")), np.abs(expected), atol=1e-9)
+    # compare looks at the raw columns too, but the methods only see the scaled values
+    args = ["compare", path, "--scale", "standard", "--quick", "--methods", "pca"]
+    status, stdout, err = run_cli([*args, "--out", out / "r", "--quiet"], capsys)
+    assert status == 0, err
+    assert "Use pca." in stdout and "--scale standard" in stdout

@@ -247,3 +247,27 @@ def test_the_estimate_is_a_lower_bound_of_what_the_fit_allocates(estimator, meth
     dense_part = need.nbytes - 3 * 8 * n * d
     assert dense_part >= 8 * n * n
     assert peak >= dense_part
+
+
+@pytest.mark.parametrize(
+    "keys",
+    [
+        {},
+        {"labels": "bed"},
+        {"labels": "bed", "drop": ["light"]},
+        {"labels": "bed", "keep": ["light"]},
+        {"features": ["soil", "light"]},
+    ],
+)
+def test_the_size_read_from_the_header_is_what_a_job_loads(keys, sensors):
+    # The memory estimate's n and D, from the header alone, against the loaded dataset.
+    from lowdim.datasets import load
+    from lowdim.run.suite_checks import file_size
+
+    spec = {"file": str(sensors), "labels": None, **keys}
+    if "bed" not in (keys.get("labels"), *keys.get("keep", [])):
+        spec["drop"] = [*keys.get("drop", []), "bed"]
+    if "features" in keys:
+        spec.pop("drop", None)
+    data = load({k: v for k, v in spec.items() if v is not None})
+    assert file_size(spec, "t") == (data.n_samples, data.n_features)

@@ -198,8 +198,8 @@ def check_magnitude(X: np.ndarray, columns: list[str], where: str) -> None:
     peaks = np.max(np.abs(X), axis=0)
     largest = float(peaks.max())
     fix = (
-        'scale the data first: set `scale = "standard"` (or "minmax") in the dataset\'s '
-        "table, or divide the columns by a common factor before saving the file"
+        'scale the data first: `scale = "standard"` in a suite\'s dataset table, '
+        "--scale standard on the command line, or divide the columns by a common factor"
     )
     if largest > LARGEST_MAGNITUDE:
         column = columns[int(np.argmax(peaks))]

@@ -139,7 +139,7 @@ def _select_array_columns(X: np.ndarray, spec: dict, where: str) -> tuple[np.nda
     return X, [str(i) for i in chosen]
 
 
-def _load_npy(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
+def _load_npy(path: Path, spec: dict, where: str, meta: dict, check_scale: bool) -> Dataset:
     try:
         array = np.load(path, mmap_mode="r", allow_pickle=False)
     except (ValueError, OSError, EOFError) as exc:
@@ -151,7 +151,9 @@ def _load_npy(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
     check_row_count(array.shape[0], where)
     meta["memory_mapped"] = True
     X, columns = _select_array_columns(np.asarray(array, dtype=np.float64), spec, where)
-    return assemble(path.stem, X, columns, spec=spec, where=where, meta=meta)
+    return assemble(
+        path.stem, X, columns, spec=spec, where=where, meta=meta, check_scale=check_scale
+    )
 
 
 def _member(archive, key: str, where: str) -> np.ndarray:
@@ -169,7 +171,7 @@ def _member(archive, key: str, where: str) -> np.ndarray:
         ) from None
 
 
-def _load_npz(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
+def _load_npz(path: Path, spec: dict, where: str, meta: dict, check_scale: bool) -> Dataset:
     try:
         archive = np.load(path, allow_pickle=False)
     except (ValueError, OSError, EOFError) as exc:
@@ -210,11 +212,13 @@ def _load_npz(path: Path, spec: dict, where: str, meta: dict) -> Dataset:
         labels=labels,
         label_name=label_key,
         truth=truth,
+        check_scale=check_scale,
     )
 
 
-def load_file(spec: dict) -> Dataset:
-    """Load the file named by ``spec["file"]`` with the spec's options."""
+def load_file(spec: dict, *, check_scale: bool = True) -> Dataset:
+    """Load the file named by ``spec["file"]`` with the spec's options (``check_scale``: see
+    :func:`lowdim.datasets.preprocess.preprocess`)."""
     path = Path(spec["file"]).expanduser()
     where = f"the file {str(path)!r}"
     check_readable(path, where)
@@ -229,9 +233,9 @@ def load_file(spec: dict) -> Dataset:
         "citation": None,
     }
     if kind == "npy":
-        return _load_npy(path, spec, where, meta)
+        return _load_npy(path, spec, where, meta, check_scale)
     if kind == "npz":
-        return _load_npz(path, spec, where, meta)
+        return _load_npz(path, spec, where, meta, check_scale)
     if kind == "parquet":
         frame = _read_parquet(path, where)
     else:
@@ -249,6 +253,7 @@ def load_file(spec: dict) -> Dataset:
         meta=meta,
         labels=labels,
         label_name=spec.get("labels"),
+        check_scale=check_scale,
     )
 
 

@@ -37,9 +37,19 @@ PREPROCESS_PARAMS: dict[str, Param] = {
 
 
 def preprocess(
-    X: np.ndarray, spec: dict, where: str, columns: list[str], *, seed: int = 0
+    X: np.ndarray,
+    spec: dict,
+    where: str,
+    columns: list[str],
+    *,
+    seed: int = 0,
+    check_scale: bool = True,
 ) -> np.ndarray:
-    """Apply the spec's ``log1p``, ``scale`` and ``pca_first`` to ``X`` (never in place)."""
+    """Apply the spec's ``log1p``, ``scale`` and ``pca_first`` to ``X`` (never in place).
+
+    ``check_scale=False`` skips the magnitude check, for a look at the raw values of data that
+    will be scaled before any method sees it.
+    """
     if spec.get("log1p", False):
         too_small = X <= -1.0
         if too_small.any():
@@ -64,7 +74,8 @@ def preprocess(
         low = X.min(axis=0)
         span = X.max(axis=0) - low
         X = (X - low) / np.where(span > 0, span, 1.0)
-    check_magnitude(X, columns, where)
+    if check_scale:
+        check_magnitude(X, columns, where)
     n_keep = spec.get("pca_first")
     if n_keep is not None:
         limit = min(X.shape)

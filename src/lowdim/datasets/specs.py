@@ -205,8 +205,12 @@ def validate_spec(spec: dict, *, where: str = "") -> dict:
     return out
 
 
-def load(spec: dict) -> Dataset:
+def load(spec: dict, *, check_scale: bool = True) -> Dataset:
     """Load the dataset a spec describes (``label``, if present, is ignored).
+
+    ``check_scale=False`` lets a file's values beyond the magnitude limits through (see
+    :func:`lowdim.datasets.checks.check_magnitude`): for a first look at raw columns that the
+    methods will only see scaled.
 
     Returns
     -------
@@ -217,7 +221,7 @@ def load(spec: dict) -> Dataset:
     params = validate_spec(spec)
     params.pop("label", None)
     if "file" in params:
-        return _subsample(files.load_file(params), params)
+        return _subsample(files.load_file(params, check_scale=check_scale), params)
     if "openml" in params:
         return bundled.load_openml(params)
     family = get_family(params["name"])

@@ -145,6 +145,7 @@ def assemble(
     label_name: str | None = None,
     truth: np.ndarray | None = None,
     warn: bool = True,
+    check_scale: bool = True,
 ) -> Dataset:
     """Check ``X`` (n x D numbers), encode the labels, preprocess, and build the Dataset."""
     check_row_count(X.shape[0], where)
@@ -169,7 +170,7 @@ def assemble(
                 f"{where}: `truth` has {truth.shape[0]} rows but the data has {X.shape[0]}; "
                 "they must match row for row"
             )
-    X = preprocess(X, spec, where, columns, seed=spec.get("seed", 0))
+    X = preprocess(X, spec, where, columns, seed=spec.get("seed", 0), check_scale=check_scale)
     meta = {
         **meta,
         "parameters": dict(spec),

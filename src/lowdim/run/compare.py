@@ -232,12 +232,12 @@ def _spec(path: Path, options: CompareOptions, *, preprocessing: bool) -> dict[s
     return spec
 
 
-def _load(spec: dict) -> tuple[Any, list[str]]:
+def _load(spec: dict, *, check_scale: bool = True) -> tuple[Any, list[str]]:
     from lowdim import datasets
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        dataset = datasets.load(spec)
+        dataset = datasets.load(spec, check_scale=check_scale)
     return dataset, [" ".join(str(w.message).split()) for w in caught]
 
 
@@ -294,8 +294,9 @@ def plan_comparison(
     path = Path(path)
     if not path.exists():
         raise InputError(f"data file {str(path)!r} not found; give the path to a data file")
-    raw, _ = _load(_spec(path, options, preprocessing=False))
     dataset, notes = _load(_spec(path, options, preprocessing=True))
+    # The raw columns feed only the column findings; the methods see the preprocessed values.
+    raw, _ = _load(_spec(path, options, preprocessing=False), check_scale=False)
     if raw.n_features < 2:
         kept = ", ".join(repr(c) for c in raw.meta.get("columns", []))
         raise InputError(

@@ -128,7 +128,7 @@ def file_size(spec: dict, where: str) -> tuple[int | None, int | None]:
     if spec.get("features") is not None:
         columns = len(spec["features"])
     elif columns is not None:
-        columns -= len(spec.get("drop") or [])
+        columns -= len(set(spec.get("drop") or []) | set(spec.get("keep") or []))
         if shape.columns is not None and spec.get("labels") is not None:
             columns -= 1  # a table's label column is not a feature
     return rows, columns
