@@ -53,6 +53,13 @@ def column_findings(
         The preprocessing the user chose, so each sentence says what was done.
     """
     X = np.asarray(X, dtype=np.float64)
+    with np.errstate(over="ignore", invalid="ignore"):  # raw values may be near 1e300
+        return _findings(X, columns, list(dropped), scale, log1p)
+
+
+def _findings(
+    X: np.ndarray, columns: list[str], dropped: list[str], scale: str, log1p: bool
+) -> list[str]:
     out = []
     if len(dropped):
         out.append(

@@ -164,14 +164,19 @@ def graph_components(X: np.ndarray, ks: list[int]) -> dict[int, int]:
     return out
 
 
-def _missing_criteria(has_labels: bool) -> dict[str, str]:
+def _missing_criteria(has_labels: bool, label_column: str | None) -> dict[str, str]:
     from lowdim.metrics import get_metric, metric_names
 
+    no_labels = (
+        f"the label column {label_column!r} has fewer than two classes to tell apart"
+        if label_column
+        else "they need class labels: pass --labels COLUMN"
+    )
     out = {}
     for name in metric_names():
         needs = get_metric(name).needs
         if needs == "labels" and not has_labels:
-            out[name] = "they need class labels: pass --labels COLUMN"
+            out[name] = no_labels
         elif needs == "truth":
             out[name] = "they need ground-truth coordinates, which a data file does not have"
     return out
@@ -386,7 +391,7 @@ def plan_comparison(
             str(k): c
             for k, c in graph_components(sample, neighbour_grid("standard", size)).items()
         },
-        "missing": _missing_criteria(dataset.labels is not None),
+        "missing": _missing_criteria(dataset.labels is not None, options.labels),
     }
     return ComparePlan(
         file=path,
