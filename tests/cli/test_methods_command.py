@@ -5,13 +5,17 @@ import sys
 
 import pytest
 
+import lowdim.methods as registry
 from lowdim.cli import main
 from lowdim.methods.peers import peer_names
 
 SKLEARN = importlib.metadata.version("scikit-learn")
 
 
-def test_listing_names_each_peer_with_its_package_and_class(capsys):
+def test_listing_names_each_peer_with_its_package_and_class(capsys, monkeypatch):
+    # only what lowdim registers itself: plugins other tests loaded stay out of the listing
+    monkeypatch.setattr(registry, "_ADDED", {})
+    monkeypatch.setattr(registry, "_ORIGIN", {})
     assert main(["methods"]) == 0
     out = capsys.readouterr().out
     # the version is the installed distribution's own (importlib.metadata)
