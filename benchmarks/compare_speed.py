@@ -89,9 +89,10 @@ def main() -> None:
             f"  {len(jobs)} jobs: fit {jobs['fit_seconds'].sum():.1f} s, scoring "
             f"{jobs['score_seconds'].sum():.1f} s, job wall {jobs['wall'].sum():.1f} s in all"
         )
+        median = statistics.median(jobs["overhead"])
         print(
-            f"  job overhead (wall - fit - scoring): median {statistics.median(jobs['overhead']):.3f}"
-            f" s, 90th percentile {jobs['overhead'].quantile(0.9):.3f} s (target <= 0.15 s)"
+            f"  job overhead (wall - fit - scoring): median {median:.3f} s, 90th percentile "
+            f"{jobs['overhead'].quantile(0.9):.3f} s (target <= 0.15 s)"
         )
         if args.peers:
             from lowdim.methods.peers import peer_tables
