@@ -69,10 +69,12 @@ def test_compare_end_to_end_with_a_plugin(cabinet, tmp_path):
     text = proc.stdout
     assert "Ranked by overall (mean rank)" in text
     table = text.split("Recommendation:")[0]
-    # 11 settings in the quick sweep: pca, classical_mds, 4 kernel_pca bandwidths, 1
-    # laplacian_eigenmaps neighbour count, 3 diffusion_maps bandwidths, and the plugin.
+    # 17 settings in the quick sweep: pca, classical_mds, 4 kernel_pca bandwidths, 1
+    # laplacian_eigenmaps neighbour count, 3 diffusion_maps bandwidths, one setting of each
+    # of the 6 fast peers (isomap, lle, lle_modified, lle_hessian, ltsa, smacof), the plugin.
     rows = [line for line in table.splitlines() if re.match(r"\s*=?\d+\s", line)]
-    assert len(rows) == 11
+    assert len(rows) == 17
+    assert any(r.split()[1].startswith("isomap") for r in rows)
     assert any("first_two_readings" in r for r in rows)
     assert any("kernel_pca(bandwidth=kernel_sum)" in r for r in rows)
     assert any("× median distance (" in r for r in rows)
@@ -86,7 +88,8 @@ def test_compare_end_to_end_with_a_plugin(cabinet, tmp_path):
     assert "3 resamples of the file as blocks" in recommendation
     assert "ranks first (or ties for first) in" in recommendation
     assert "Refitted on 150 rows" in recommendation  # the confirmation on the whole file
-    assert "Candidates: 11 settings of 6 methods" in recommendation
+    assert "Candidates: 17 settings of 12 methods" in recommendation
+    assert "left out: tsne (slow tier" in recommendation
     assert "knn_accuracy" in recommendation and "class labels" in recommendation
     assert winner in rows[0]
     assert (out / "recommendation.txt").read_text() in text

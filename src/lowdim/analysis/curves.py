@@ -137,9 +137,8 @@ def scaling_stops(results: Results) -> pd.DataFrame:
     if stopped.empty:
         return pd.DataFrame(columns=["method", "n_samples", "status"])
     first = stopped.sort_values("n_samples").drop_duplicates("config")
-    return first.rename(columns={"config": "method"})[
-        ["method", "n_samples", "status"]
-    ].reset_index(drop=True)
+    first = first[["config", "n_samples", "status"]].rename(columns={"config": "method"})
+    return first.reset_index(drop=True)
 
 
 def gallery_panels(
