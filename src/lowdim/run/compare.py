@@ -48,6 +48,16 @@ FRACTION = 0.8
 RESAMPLES = {"quick": 3, "standard": 5, "full": 5}
 _SEEDS = {"quick": (0,), "standard": (0,), "full": (0, 1, 2)}
 _CRITERION_KS = (5, 10, 30)
+# What a comparison shows: its headline criteria (the registry's defaults that a data file can
+# have) and the R_NX(K) curve; scoring nothing else keeps each job short.
+COMPARE_METRICS = (
+    "trustworthiness",
+    "continuity",
+    "rnx",
+    "rnx_auc",
+    "knn_accuracy",
+    "distance_spearman",
+)
 SCALES = ("none", "standard", "robust", "minmax")
 
 
@@ -355,6 +365,7 @@ def plan_comparison(
             "n_components": options.n_components,
             "seeds": list(_SEEDS[options.sweep]),
             "neighbors": criterion_ks(size),
+            "metrics": list(COMPARE_METRICS),
             "description": f"lowdim compare on {path.name}",
         },
         "datasets": datasets,
