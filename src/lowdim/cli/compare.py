@@ -9,6 +9,7 @@ recommendation and the ``lowdim embed`` command for the winner.
 from __future__ import annotations
 
 import argparse
+import math
 import shlex
 import sys
 
@@ -170,11 +171,13 @@ def _compare(plan: ComparePlan, args: argparse.Namespace) -> int:
     )
     run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
     first = analyse_folder(plan.out_dir)
-    leaders = first.order[:LEADERS]
-    leaders += [m for m in first.order if first.family(m) == "pca" and m not in leaders][:1]
-    run_confirmation(
-        plan, [(m, first.spec_of(m)) for m in leaders], n_jobs=args.jobs, quiet=args.quiet
-    )
+    ranked = [m for m in first.order if math.isfinite(first.selection_ranks[m])]
+    leaders = ranked[:LEADERS]
+    leaders += [m for m in ranked if first.family(m) == "pca" and m not in leaders][:1]
+    if leaders:  # a setting that failed on every resample is not refitted
+        run_confirmation(
+            plan, [(m, first.spec_of(m)) for m in leaders], n_jobs=args.jobs, quiet=args.quiet
+        )
     analysis = analyse_folder(plan.out_dir)
     report = build_report(plan.out_dir)
     board = overall_table(analysis, values=True, compact=True)

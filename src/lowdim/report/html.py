@@ -170,10 +170,10 @@ def _damaged(damaged: pd.DataFrame) -> str:
         f"{r.method} on {r.dataset} (seed {r.seed:g}): {r.file} {r.problem}"
         for r in damaged.itertuples()
     )
+    their, them = ("their", "them") if jobs > 1 else ("its", "it")
     return (
-        f"{jobs} finished job{'s' if jobs > 1 else ''} ({files}); their scores stand, what "
-        "needs the file is left out; run the suite again into this folder to recompute "
-        + ("them" if jobs > 1 else "it")
+        f"{jobs} finished job{'s' if jobs > 1 else ''} ({files}); {their} scores stand, what "
+        f"needs the file is left out; run the suite again into this folder to recompute {them}"
     )
 
 

@@ -68,7 +68,8 @@ def verdict(an: Analysis) -> str:
     if an.table.empty or an.winner is None:
         return (
             "No configuration finished with scores on any dataset, so there is no verdict; "
-            "the failures are listed below."
+            "the jobs that did not finish are listed with their messages in report.html and "
+            "by `lowdim status`."
         )
     winner = an.winner
     k = len(an.order)

@@ -62,10 +62,9 @@ def check_results_folder(path: str | Path, option: str = "--out") -> Path:
     if len(entries) > 1:
         what += f" and {len(entries) - 1} other entr{'ies' if len(entries) > 2 else 'y'}"
     raise InputError(
-        f"{option} {str(path)!r} is a folder lowdim did not create (it holds {what}, and "
-        f"neither a {MARKER} marker nor a results store), and lowdim replaces the files it "
-        "writes there; give a new or empty folder (it is created if missing), or the folder "
-        "of an earlier lowdim run"
+        f"{option} {str(path)!r} holds files lowdim did not write ({what}) and no {MARKER} "
+        "marker, and lowdim replaces its outputs in its folders; give a new or empty folder, "
+        "or the folder of an earlier lowdim run"
     )
 
 

@@ -264,10 +264,14 @@ def run_suite(
         todo = _select(jobs, store.statuses(), set(damaged), force=force, retry=retry)
         again = [j for j in todo if j.job_id in damaged]
         if again and not force:
+            name, problem = damaged[again[0].job_id][0]
             log.warning(
-                "%d finished job(s) have a missing or damaged file (%s); they run again",
+                "%d finished job%s a missing or damaged file and run%s again (the first: %s %s)",
                 len(again),
-                ", ".join(f"{n}: {p}" for n, p in damaged[again[0].job_id]),
+                "s have" if len(again) > 1 else " has",
+                "" if len(again) > 1 else "s",
+                name,
+                problem,
             )
         run_id = store.start_run(
             command=command,
