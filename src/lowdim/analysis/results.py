@@ -224,6 +224,11 @@ def load_results(out_dir: str | Path) -> Results:
     recorded = runs.dropna(subset=["settings"]) if "settings" in runs else runs.iloc[0:0]
     confirming = recorded["kind"].eq("confirmation") if "kind" in recorded else False
     main = recorded[~confirming] if len(recorded) else recorded
+    if runs.empty:
+        raise InputError(
+            f"the results store in {str(out_dir)!r} holds no run yet (one was stopped before "
+            "it began); run the suite into that folder"
+        )
     if main.empty:
         raise InputError(
             f"the results store in {str(out_dir)!r} has no settings record (it was written by "
@@ -253,10 +258,10 @@ def load_results(out_dir: str | Path) -> Results:
 
 def _damaged(out_dir: Path, jobs: pd.DataFrame) -> pd.DataFrame:
     """The missing or damaged files of the finished jobs in ``jobs``, one row each."""
-    rows = []
+    rows, checked = [], {}
     if "status" in jobs:
         for _, job in jobs[jobs["status"] == "ok"].iterrows():
-            for name, problem in job_file_problems(out_dir, job):
+            for name, problem in job_file_problems(out_dir, job, checked):
                 rows.append(
                     [job["job_id"], job["data"], job["config"], job["seed"], name, problem]
                 )

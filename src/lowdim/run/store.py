@@ -278,9 +278,9 @@ class Store:
     def damaged(self) -> dict[str, list[tuple[str, str]]]:
         """``job_id -> [(file, problem), ...]`` for each ``ok`` job whose files are missing or
         damaged (see :func:`job_file_problems`)."""
-        found = {}
+        found, checked = {}, {}
         for job in self.jobs():
-            problems = job_file_problems(self.folder, job)
+            problems = job_file_problems(self.folder, job, checked)
             if problems:
                 found[job["job_id"]] = problems
         return found
