@@ -154,7 +154,7 @@ def _take(fd: int, folder: Path, wait: bool) -> None:
             alive = previous.alive() if previous else False
             taken = not (previous and alive is not False)
             if not taken and alive is None and not wait:
-                raise InputError(
+                raise FolderBusy(
                     f"{_busy(folder, previous)}; this file system has no locks, so lowdim "
                     f"cannot tell whether that run still goes: if it has ended, delete "
                     f"{str(folder / LOCK_NAME)!r}"
