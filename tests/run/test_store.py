@@ -7,6 +7,7 @@ import sqlite3
 import numpy as np
 import pytest
 
+from lowdim.errors import InputError
 from lowdim.run.store import Store
 from lowdim.run.suites import Job
 
@@ -66,7 +67,7 @@ def test_rewriting_a_job_replaces_row_and_scores(tmp_path):
     with Store(tmp_path) as store:
         job = make_job()
         store.record(make_record(job, values=[("trustworthiness", 5, 0.5), ("stress", 0, 1.0)]))
-        store.record(make_record(job, status="failed", values=[]))
+        assert store.record(make_record(job, status="failed", values=[]), replace_ok=True)
         assert store.statuses() == {job.job_id: "failed"}
         assert store.db.execute("SELECT COUNT(*) FROM scores").fetchone()[0] == 0
         # a failed job keeps no embedding from an earlier success
@@ -145,3 +146,84 @@ def test_reading_a_folder_without_store(tmp_path):
     with pytest.raises(FileNotFoundError):
         Store(tmp_path / "none", create=False)
     assert not (tmp_path / "none").exists()
+
+
+def test_an_ok_job_is_never_replaced_by_a_worse_attempt(tmp_path):
+    with Store(tmp_path) as store:
+        job = make_job()
+        store.record(make_record(job, values=[("trustworthiness", 5, 0.5)]))
+        for status in ("failed", "timeout", "memory"):
+            assert not store.record(make_record(job, status=status, values=[]))
+        assert store.statuses() == {job.job_id: "ok"}
+        assert store.db.execute("SELECT value FROM scores").fetchall() == [(0.5,)]
+        assert (tmp_path / "embeddings" / f"{job.job_id}.npy").is_file()
+        # a failure may replace a failure, and an ok attempt anything
+        other = make_job(job_id="b" * 16)
+        assert store.record(make_record(other, status="timeout", values=[]))
+        assert store.record(make_record(other, status="failed", values=[]))
+        assert store.record(make_record(other, values=[("trustworthiness", 5, 0.7)]))
+        assert store.statuses()[other.job_id] == "ok"
+
+
+def test_missing_and_truncated_files_of_finished_jobs_are_named(tmp_path):
+    colour = ("truth", np.linspace(0.0, 1.0, 5))
+    with Store(tmp_path) as store:
+        jobs = [make_job(job_id=str(i) * 16, seed=i) for i in range(3)]
+        for job in jobs:
+            record = make_record(job)
+            record.update(colour=colour, quality=([0, 1, 2, 3, 4], {("qnx", 5): np.ones(5)}))
+            store.record(record)
+        store.record(make_record(make_job(job_id="f" * 16), status="failed"))
+        assert store.damaged() == {}
+        (tmp_path / "embeddings" / f"{jobs[0].job_id}.npy").unlink()
+        path = tmp_path / "embeddings" / f"{jobs[1].job_id}.npy"
+        path.write_bytes(path.read_bytes()[:-8])
+        quality = tmp_path / "quality" / f"{jobs[2].job_id}.npz"
+        quality.write_bytes(quality.read_bytes()[:40])
+        found = store.damaged()
+    assert found[jobs[0].job_id] == [(f"embeddings/{jobs[0].job_id}.npy", "missing")]
+    ((name, problem),) = found[jobs[1].job_id]
+    assert name == f"embeddings/{jobs[1].job_id}.npy" and problem.startswith("damaged")
+    ((name, problem),) = found[jobs[2].job_id]
+    assert name == f"quality/{jobs[2].job_id}.npz" and problem.startswith("damaged")
+    assert set(found) == {j.job_id for j in jobs}
+
+
+def test_a_damaged_colour_file_is_written_again(tmp_path):
+    colour = ("truth", np.linspace(0.0, 1.0, 5))
+    with Store(tmp_path) as store:
+        record = make_record(make_job())
+        record["colour"] = colour
+        store.record(record)
+        (path,) = (tmp_path / "colours").iterdir()
+        path.write_bytes(path.read_bytes()[:60])
+        assert store.damaged()
+        store.record(record)
+        np.testing.assert_array_equal(np.load(path), colour[1])
+        assert store.damaged() == {}
+
+
+@pytest.mark.parametrize(
+    "content, words",
+    [
+        (b"job_id,status\n1,ok\n", "is not an SQLite database"),
+        (b"SQLite format 3\x00" + b"\xff" * 200, "is damaged"),
+        (None, "without lowdim's tables"),
+    ],
+)
+def test_a_store_that_is_not_lowdims_is_refused_untouched(tmp_path, content, words):
+    path = tmp_path / "store.sqlite"
+    if content is None:
+        db = sqlite3.connect(path)
+        db.execute("CREATE TABLE customers (name TEXT)")
+        db.commit()
+        db.close()
+    else:
+        path.write_bytes(content)
+    before = path.read_bytes()
+    for kwargs in ({}, {"read_only": True}, {"create": False}):
+        with pytest.raises(InputError, match=words) as caught:
+            Store(tmp_path, **kwargs)
+        assert str(path) in str(caught.value) and "move it away" in str(caught.value)
+    assert path.read_bytes() == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["store.sqlite"]

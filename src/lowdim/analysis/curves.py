@@ -163,11 +163,10 @@ def gallery_panels(
             if method not in rows.index:
                 continue
             job = rows.loc[method]
-            path = results.embedding_path(job["job_id"])
-            if not path.is_file():
-                notes.append(f"{method} on {data}: the embedding file is missing")
+            Y = results.embedding(job["job_id"])
+            if Y is None:
+                notes.append(f"{method} on {data}: the embedding file is missing or damaged")
                 continue
-            Y = np.load(path)
             stored = results.colours(job)
             colour, kind = (None, "order") if stored is None else (stored[1], stored[0])
             if colour is not None and len(colour) != len(Y):
@@ -201,17 +200,15 @@ def quality_panels(
             if method not in rows.index:
                 continue
             job_id = rows.loc[method, "job_id"]
-            path = results.out_dir / "quality" / f"{job_id}.npz"
-            embedding = results.embedding_path(job_id)
-            if not path.is_file() or not embedding.is_file():
+            stored = results.quality(job_id)
+            Y = results.embedding(job_id)
+            if stored is None or Y is None:
                 continue
-            stored = np.load(path)
-            names = [n for n in stored.files if n != "rows"]
+            names = [n for n in stored if n != "rows"]
             if not names:
                 continue
             if key not in names:
                 key = next((n for n in names if n.startswith("qnx@")), names[0])
-            Y = np.load(embedding)
             colour = np.full(len(Y), np.nan)
             colour[stored["rows"]] = stored[key]
             panels.append(
@@ -229,10 +226,9 @@ def degenerate_panels(results: Results, diagnoses: pd.DataFrame, limit: int = 6)
     jobs = results.jobs.set_index("job_id")
     panels = []
     for row in picked.head(limit).itertuples():
-        path = results.embedding_path(row.job_id)
-        if not path.is_file():
+        Y = results.embedding(row.job_id)
+        if Y is None:
             continue
-        Y = np.load(path)
         stored = results.colours(jobs.loc[row.job_id])
         colour, kind = (None, "order") if stored is None else (stored[1], stored[0])
         panels.append(

@@ -225,11 +225,17 @@ class Analysis:
 
     @property
     def winner(self) -> str | None:
-        return self.order[0] if self.order else None
+        """The first configuration; None when no configuration has a rank (none finished)."""
+        if not self.order or not math.isfinite(self.selection_ranks.iloc[0]):
+            return None
+        return self.order[0]
 
     @property
     def runner_up(self) -> str | None:
-        return self.order[1] if len(self.order) > 1 else None
+        """The second configuration; None when it has no rank."""
+        if len(self.order) < 2 or not math.isfinite(self.selection_ranks.iloc[1]):
+            return None
+        return self.order[1]
 
     @property
     def directions(self) -> dict[str, bool]:
@@ -394,11 +400,12 @@ def analyse(results: Results, *, selection: str | None = None) -> Analysis:
     order = ordered(selection_ranks, families, settings.simpler_first)
     selection_ranks = selection_ranks[order]
     place = dict(zip(order, positions(selection_ranks.to_list()), strict=True))
-    winner = order[0] if order else None
+    winner = order[0] if order and math.isfinite(selection_ranks.iloc[0]) else None
     present = set(summary["criterion"])
     tested = [OVERALL] + [c.key for c in settings.criteria]
     with_pairs = {selection, OVERALL, *settings.headline}
     means = {k: v.reindex(columns=order) for k, v in means.items()}
+    means.setdefault(selection, empty.reindex(columns=order))  # no job finished: no blocks
     ranks = {k: rank_wide(v, all_directions.get(k, True), order) for k, v in means.items()}
     tests = {
         key: _tests(
@@ -568,11 +575,11 @@ def _confirmation(
         ]
         if extended.empty or whole.empty:
             continue
-        a = results.embedding_path(whole.iloc[0])
-        b = results.embedding_path(extended["job_id"].iloc[0])
-        if a.is_file() and b.is_file():
+        a = results.embedding(whole.iloc[0])
+        b = results.embedding(extended["job_id"].iloc[0])
+        if a is not None and b is not None:
             try:
-                disparity[config] = float(procrustes(np.load(a), np.load(b))[2])
+                disparity[config] = float(procrustes(a, b)[2])
             except ValueError:  # a constant embedding has no shape to align
                 disparity[config] = math.nan
     return Confirmation(

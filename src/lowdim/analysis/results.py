@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import json
 import math
+import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -24,12 +25,15 @@ import pandas as pd
 
 from lowdim.errors import InputError
 from lowdim.run.settings import Settings, criterion_key
-from lowdim.run.store import STORE_NAME, Store
+from lowdim.run.store import STORE_NAME, Store, job_file_problems
 
 __all__ = ["STORE_NAME", "Results", "load_results", "criterion_table", "canonical", "json_dict"]
 
 # Keys that change with the job's seed rather than describing the spec itself.
 _SEED_KEYS = ("seed", "random_state")
+DAMAGED_COLUMNS = ["job_id", "dataset", "method", "seed", "file", "problem"]
+# What every jobs frame has beyond the store's columns (also when no job has finished yet).
+_LABEL_COLUMNS = ("data_spec", "config_spec", "data", "config", "family")
 
 
 @dataclass(frozen=True)
@@ -54,6 +58,10 @@ class Results:
     confirmation : DataFrame
         The jobs of the confirmation run that followed the latest run of a comparison (the
         columns of ``jobs``), empty when there is none; ``confirmation_scores`` their scores.
+    damaged : DataFrame
+        One row per missing or damaged file of a finished job (``job_id, dataset, method,
+        seed, file, problem``; the file relative to the folder). Their scores stand; what
+        needs the file (the gallery, stability across seeds) goes without it.
     """
 
     out_dir: Path
@@ -63,21 +71,49 @@ class Results:
     settings: Settings
     confirmation: pd.DataFrame = field(default_factory=pd.DataFrame)
     confirmation_scores: pd.DataFrame = field(default_factory=pd.DataFrame)
+    damaged: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=DAMAGED_COLUMNS))
 
     def embedding_path(self, job_id: str) -> Path:
         """Where the runner keeps a job's embedding."""
         return self.out_dir / "embeddings" / f"{job_id}.npy"
 
+    def _damaged_files(self) -> set[str]:
+        return set(self.damaged["file"])
+
+    def _array(self, name: str) -> np.ndarray | None:
+        """The array in the folder's file ``name``; None when it is missing or damaged."""
+        if name in self._damaged_files():
+            return None
+        try:
+            return np.load(self.out_dir / name, allow_pickle=False)
+        except (OSError, ValueError, EOFError):  # gone or cut short since the store was read
+            return None
+
+    def embedding(self, job_id: str) -> np.ndarray | None:
+        """A job's embedding; None when its file is missing or damaged (see ``damaged``)."""
+        return self._array(f"embeddings/{job_id}.npy")
+
+    def quality(self, job_id: str) -> dict[str, np.ndarray] | None:
+        """A job's per-point quality arrays (``rows`` and ``"metric@K"`` keys); None when it
+        has none or its file is damaged."""
+        name = f"quality/{job_id}.npz"
+        if name in self._damaged_files() or not (self.out_dir / name).is_file():
+            return None
+        try:
+            with np.load(self.out_dir / name, allow_pickle=False) as stored:
+                return {key: stored[key] for key in stored.files}
+        except (OSError, ValueError, EOFError, zipfile.BadZipFile):
+            return None
+
     def colours(self, job: Any) -> tuple[str, np.ndarray] | None:
-        """The kind and values that colour a job's points, stored at job time; None if absent."""
+        """The kind and values that colour a job's points, stored at job time; None if absent
+        or damaged."""
         ref = job.get("colour") if hasattr(job, "get") else None
         if not isinstance(ref, str) or ":" not in ref:
             return None
         kind, _, digest = ref.partition(":")
-        path = self.out_dir / "colours" / f"{digest}.npy"
-        if not path.is_file():
-            return None
-        return kind, np.load(path, allow_pickle=False)
+        values = self._array(f"colours/{digest}.npy")
+        return None if values is None else (kind, values)
 
 
 def json_dict(text: Any) -> dict:
@@ -137,7 +173,7 @@ def _latest_plan(jobs: pd.DataFrame, planned: pd.DataFrame, run_id: int) -> pd.D
 def _labelled(jobs: pd.DataFrame) -> pd.DataFrame:
     """Jobs with their display labels, specs without seeds and numeric columns."""
     if jobs.empty:
-        return jobs
+        return jobs.reindex(columns=[*jobs.columns, *_LABEL_COLUMNS])
     jobs = jobs.copy()
     jobs["data_spec"] = jobs["dataset_params"].map(json_dict).map(lambda d: _without(d, ("seed",)))
     jobs["config_spec"] = (
@@ -167,7 +203,8 @@ def load_results(out_dir: str | Path) -> Results:
     Raises
     ------
     InputError
-        When the folder holds no store, the store no run with a settings record, or no jobs.
+        When the folder holds no store, or the store no run with a settings record; a store
+        whose latest run has no finished job yet gives empty ``jobs``.
     """
     out_dir = Path(out_dir)
     try:
@@ -187,6 +224,11 @@ def load_results(out_dir: str | Path) -> Results:
     recorded = runs.dropna(subset=["settings"]) if "settings" in runs else runs.iloc[0:0]
     confirming = recorded["kind"].eq("confirmation") if "kind" in recorded else False
     main = recorded[~confirming] if len(recorded) else recorded
+    if runs.empty:
+        raise InputError(
+            f"the results store in {str(out_dir)!r} holds no run yet (one was stopped before "
+            "it began); run the suite into that folder"
+        )
     if main.empty:
         raise InputError(
             f"the results store in {str(out_dir)!r} has no settings record (it was written by "
@@ -200,11 +242,6 @@ def load_results(out_dir: str | Path) -> Results:
     if len(later):
         confirm_jobs = _labelled(_latest_plan(jobs, planned, int(later["run_id"].max())))
     jobs = _labelled(_latest_plan(jobs, planned, int(latest["run_id"])))
-    if jobs.empty:
-        raise InputError(
-            f"the results store in {str(out_dir)!r} holds no finished job of its latest run "
-            "yet; run the suite into that folder first"
-        )
     confirm_scores = _scores_of(scores, confirm_jobs)
     scores = _scores_of(scores, jobs)
     return Results(
@@ -215,7 +252,20 @@ def load_results(out_dir: str | Path) -> Results:
         settings=settings,
         confirmation=confirm_jobs,
         confirmation_scores=confirm_scores,
+        damaged=_damaged(out_dir, pd.concat([jobs, confirm_jobs], ignore_index=True)),
     )
+
+
+def _damaged(out_dir: Path, jobs: pd.DataFrame) -> pd.DataFrame:
+    """The missing or damaged files of the finished jobs in ``jobs``, one row each."""
+    rows, checked = [], {}
+    if "status" in jobs:
+        for _, job in jobs[jobs["status"] == "ok"].iterrows():
+            for name, problem in job_file_problems(out_dir, job, checked):
+                rows.append(
+                    [job["job_id"], job["data"], job["config"], job["seed"], name, problem]
+                )
+    return pd.DataFrame(rows, columns=DAMAGED_COLUMNS)
 
 
 def criterion_table(results: Results) -> pd.DataFrame:

@@ -38,11 +38,11 @@ def seed_stability(results: Results) -> pd.DataFrame:
     jobs = results.jobs[results.jobs["status"] == "ok"].sort_values("seed")
     rows = []
     for (data, method), group in jobs.groupby(["data", "config"], sort=True):
-        present = [
-            (results.embedding_path(j), fp)
+        loaded = [
+            (results.embedding(j), fp)
             for j, fp in zip(group["job_id"], group["data_fingerprint"], strict=True)
-            if results.embedding_path(j).is_file()
         ]
+        present = [(Y, fp) for Y, fp in loaded if Y is not None]
         row = {"dataset": data, "method": method, "n_seeds": len(present), "disparity": math.nan}
         if len(present) < 2:
             rows.append({**row, "note": "fewer than two seeds with an embedding"})
@@ -60,10 +60,9 @@ def seed_stability(results: Results) -> pd.DataFrame:
                 }
             )
             continue
-        first = np.load(present[0][0])
+        first = present[0][0]
         values = []
-        for path, _ in present[1:]:
-            other = np.load(path)
+        for other, _ in present[1:]:
             if other.shape != first.shape:
                 continue
             try:

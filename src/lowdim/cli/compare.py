@@ -9,18 +9,29 @@ recommendation and the ``lowdim embed`` command for the winner.
 from __future__ import annotations
 
 import argparse
+import math
+import shlex
 import sys
 
 from lowdim._files import write_text
 from lowdim.analysis.engine import analyse_folder
 from lowdim.cli.paths import check_out_folder
+from lowdim.cli.run import add_wait_argument
 from lowdim.datasets.headers import check_readable
 from lowdim.report import build_report
 from lowdim.report.recommendation import embed_command, recommendation
 from lowdim.report.text import fixed_width, wrap_sentence
 from lowdim.report.views import overall_table
-from lowdim.run.compare import MAX_ROWS, SCALES, CompareOptions, plan_comparison, run_comparison
+from lowdim.run.compare import (
+    MAX_ROWS,
+    SCALES,
+    CompareOptions,
+    ComparePlan,
+    plan_comparison,
+    run_comparison,
+)
 from lowdim.run.confirm import run_confirmation
+from lowdim.run.folder import results_folder
 
 HELP = "compare the built-in methods, the usual peers and your plugins on your own data file"
 
@@ -110,6 +121,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help=f"rows in each resample at most ({MAX_ROWS})",
     )
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
+    add_wait_argument(parser)
 
 
 def options_from(args: argparse.Namespace) -> CompareOptions:
@@ -130,14 +142,19 @@ def options_from(args: argparse.Namespace) -> CompareOptions:
 
 
 def run(args: argparse.Namespace) -> int:
-    if args.out:
-        check_out_folder(args.out)
+    out = check_out_folder(args.out) if args.out else None
     try:
         check_readable(args.file, f"the data file {args.file!r}")
     except FileNotFoundError:
         pass  # plan_comparison words a missing file
-    plan = plan_comparison(args.file, options_from(args), plugins=args.plugin, out_dir=args.out)
+    plan = plan_comparison(args.file, options_from(args), plugins=args.plugin, out_dir=out)
     check_out_folder(plan.out_dir)
+    # one lock over the comparison, its confirmation and the outputs
+    with results_folder(plan.out_dir, wait=args.wait, command=shlex.join(sys.argv)):
+        return _compare(plan, args)
+
+
+def _compare(plan: ComparePlan, args: argparse.Namespace) -> int:
     for note in plan.warnings:
         print(f"lowdim: warning: {note}", file=sys.stderr)
     for finding in plan.context["findings"]:
@@ -154,11 +171,13 @@ def run(args: argparse.Namespace) -> int:
     )
     run_comparison(plan, n_jobs=args.jobs, quiet=args.quiet)
     first = analyse_folder(plan.out_dir)
-    leaders = first.order[:LEADERS]
-    leaders += [m for m in first.order if first.family(m) == "pca" and m not in leaders][:1]
-    run_confirmation(
-        plan, [(m, first.spec_of(m)) for m in leaders], n_jobs=args.jobs, quiet=args.quiet
-    )
+    ranked = [m for m in first.order if math.isfinite(first.selection_ranks[m])]
+    leaders = ranked[:LEADERS]
+    leaders += [m for m in ranked if first.family(m) == "pca" and m not in leaders][:1]
+    if leaders:  # a setting that failed on every resample is not refitted
+        run_confirmation(
+            plan, [(m, first.spec_of(m)) for m in leaders], n_jobs=args.jobs, quiet=args.quiet
+        )
     analysis = analyse_folder(plan.out_dir)
     report = build_report(plan.out_dir)
     board = overall_table(analysis, values=True, compact=True)

@@ -1,8 +1,11 @@
 """Checks of the paths a command writes to, before any work starts.
 
 A results folder given with ``--out`` must be a folder (or not exist yet, with an existing,
-writable folder above it), and lowdim must be allowed to write there; an output file's folder
-must exist and be writable. Each problem is one line naming the option and the path.
+writable folder above it), lowdim must be allowed to write there, and it must be lowdim's (new,
+empty, or written by lowdim: :func:`lowdim.run.folder.check_results_folder`); an output file's
+folder must exist and be writable. Each problem is one line naming the option and the path.
+A leading ``~`` is the user's home, as the shell would have it (a quoted ``"~/results"`` reaches
+lowdim unexpanded): lowdim never makes a folder named ``~``.
 """
 
 from __future__ import annotations
@@ -11,8 +14,14 @@ import os
 from pathlib import Path
 
 from lowdim.errors import InputError
+from lowdim.run.folder import check_results_folder
 
-__all__ = ["check_out_folder", "check_out_file_folder"]
+__all__ = ["user_path", "check_out_folder", "check_out_file_folder"]
+
+
+def user_path(path: str | Path) -> Path:
+    """``path`` with a leading ``~`` or ``~user`` expanded, as the shell would."""
+    return Path(os.path.expanduser(str(path)))
 
 
 def _writable(folder: Path) -> bool:
@@ -20,8 +29,9 @@ def _writable(folder: Path) -> bool:
 
 
 def check_out_folder(path: str | Path, option: str = "--out") -> Path:
-    """Return ``path`` if lowdim can create or write the results folder there."""
-    path = Path(path)
+    """Return ``path`` (``~`` expanded) if lowdim can create or write the results folder
+    there."""
+    path = user_path(path)
     if path.exists() and not path.is_dir():
         raise InputError(
             f"{option} {str(path)!r} is a file, not a folder; give a folder for the results "
@@ -46,12 +56,13 @@ def check_out_folder(path: str | Path, option: str = "--out") -> Path:
             f"{option} {str(path)!r}: {what} is not writable; choose a folder you can write "
             "to, or change its permissions"
         )
-    return path
+    return check_results_folder(path, option)
 
 
 def check_out_file_folder(path: str | Path, option: str = "--out") -> Path:
-    """Return ``path`` if its folder exists and is writable (the file itself is replaced)."""
-    path = Path(path)
+    """Return ``path`` (``~`` expanded) if its folder exists and is writable (the file itself
+    is replaced)."""
+    path = user_path(path)
     folder = path.parent
     if not folder.is_dir():
         raise InputError(

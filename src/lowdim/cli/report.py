@@ -1,9 +1,15 @@
-"""``lowdim report DIR``: rebuild a run's leaderboards, statistics, figures and HTML report."""
+"""``lowdim report DIR``: rebuild a run's leaderboards, statistics, figures and HTML report.
+
+It takes no lock: it reads the store through a read-only connection (a consistent snapshot,
+even while a run writes) and replaces each output atomically, so a report built during a run
+is whole and shows the jobs finished so far; the run rebuilds it when it ends.
+"""
 
 from __future__ import annotations
 
 import argparse
 
+from lowdim.cli.paths import user_path
 from lowdim.report import build_report
 
 HELP = (
@@ -24,6 +30,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    path = build_report(args.folder, selection=args.select)
+    path = build_report(user_path(args.folder), selection=args.select)
     print(f"report written to {path}")
     return 0

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import shlex
 import sys
 from pathlib import Path
 
@@ -12,6 +13,7 @@ from lowdim.errors import InputError
 from lowdim.report import build_report
 from lowdim.report.build import write_tables
 from lowdim.report.text import run_summary
+from lowdim.run.folder import results_folder
 from lowdim.run.runner import BACKENDS, RunSummary, run_suite
 from lowdim.run.suites import load_suite
 
@@ -38,19 +40,33 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--scheduler", metavar="ADDRESS", help="dask scheduler address (with --backend dask)"
     )
     again = parser.add_mutually_exclusive_group()
-    again.add_argument("--force", action="store_true", help="recompute every job")
+    again.add_argument(
+        "--force",
+        action="store_true",
+        help="recompute every job (a job that finished ok is replaced even if it now fails)",
+    )
     again.add_argument(
         "--retry",
         action="store_true",
         help="rerun the jobs that failed, timed out or ran out of memory",
     )
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
+    add_wait_argument(parser)
     parser.add_argument(
         "--no-report",
         dest="report",
         action="store_false",
         help="skip the figures and report.html: write the scores, statistics and leaderboards "
         "and print the verdict",
+    )
+
+
+def add_wait_argument(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument(
+        "--wait",
+        action="store_true",
+        help="when another run is writing into the results folder, wait for it to end "
+        "(without: stop at once, saying which run it is)",
     )
 
 
@@ -71,23 +87,27 @@ def run(args: argparse.Namespace) -> int:
         check_scheduler(args.scheduler)  # before the suite: a dead address is told at once
     suite = load_suite(args.suite)
     out_dir = check_out_folder(Path(args.out) if args.out else Path("results") / suite.name)
-    summary = run_suite(
-        suite,
-        out_dir,
-        n_jobs=args.jobs,
-        backend=args.backend,
-        scheduler=args.scheduler,
-        force=args.force,
-        retry=args.retry,
-        quiet=args.quiet,
-        plugins=args.plugin,
-    )
-    analysis = analyse_folder(out_dir)
-    if args.report:
-        report = build_report(out_dir)
-    else:
-        write_tables(analysis)
-        report = None
+    command = shlex.join(sys.argv)
+    # the lock spans the run and the outputs it writes after it
+    with results_folder(out_dir, wait=args.wait, command=command) as out_dir:
+        summary = run_suite(
+            suite,
+            out_dir,
+            n_jobs=args.jobs,
+            backend=args.backend,
+            scheduler=args.scheduler,
+            force=args.force,
+            retry=args.retry,
+            quiet=args.quiet,
+            plugins=args.plugin,
+            command=command,
+        )
+        analysis = analyse_folder(out_dir)
+        if args.report:
+            report = build_report(out_dir)
+        else:
+            write_tables(analysis)
+            report = None
     print(run_summary(analysis))
     if report is not None:
         print(f"\nreport: {report}")

@@ -128,6 +128,8 @@ def _overview(an: Analysis) -> dict:
         ("wall time", _duration(_wall_seconds(runs, jobs))),
         ("fit time, summed", _duration(float(jobs["fit_seconds"].sum(min_count=1) or math.nan))),
     ]
+    if len(an.results.damaged):
+        facts.append(("missing or damaged files", _damaged(an.results.damaged)))
     data = jobs.drop_duplicates("data")
     data = data.iloc[sorted(range(len(data)), key=lambda i: natural_key(data["data"].iloc[i]))]
     data_rows = [
@@ -152,7 +154,27 @@ def _overview(an: Analysis) -> dict:
         for c in an.settings.criteria
         if c.key in set(an.summary["criterion"])
     ]
-    return {"facts": facts, "datasets": data_rows, "configs": conf_rows, "criteria": criteria}
+    return {
+        "facts": facts,
+        "datasets": data_rows,
+        "configs": conf_rows,
+        "criteria": criteria,
+        "n_jobs": len(jobs),
+    }
+
+
+def _damaged(damaged: pd.DataFrame) -> str:
+    """Which finished jobs lost which file, and what to do."""
+    jobs = damaged["job_id"].nunique()
+    files = "; ".join(
+        f"{r.method} on {r.dataset} (seed {r.seed:g}): {r.file} {r.problem}"
+        for r in damaged.itertuples()
+    )
+    their, them = ("their", "them") if jobs > 1 else ("its", "it")
+    return (
+        f"{jobs} finished job{'s' if jobs > 1 else ''} ({files}); {their} scores stand, what "
+        f"needs the file is left out; run the suite again into this folder to recompute {them}"
+    )
 
 
 def _statistics(an: Analysis) -> dict:

@@ -60,10 +60,16 @@ def _units(key: str) -> str:
 
 def verdict(an: Analysis) -> str:
     """One or two sentences: which configuration ranks first, on what, over what."""
+    if an.results.jobs.empty:
+        return (
+            "No job of the latest run has finished yet, so there is no verdict; run its suite "
+            "again into this folder to run them."
+        )
     if an.table.empty or an.winner is None:
         return (
             "No configuration finished with scores on any dataset, so there is no verdict; "
-            "the failures are listed below."
+            "the jobs that did not finish are listed with their messages in report.html and "
+            "by `lowdim status`."
         )
     winner = an.winner
     k = len(an.order)

@@ -40,6 +40,9 @@ __all__ = [
 ]
 
 SCORE_COLUMNS = ("job_id", "dataset", "method", "seed", "metric", "k", "value")
+_LEADERBOARD_COLUMNS = (
+    "scope, place, tied, configuration, method, dataset, criterion, mean, sd, n, rank".split(", ")
+)
 
 
 def _full(value: Any) -> str:
@@ -81,7 +84,7 @@ def leaderboard_csv(an: Analysis) -> str:
             )
     for table in _block_rows(an, criteria):
         rows.extend(table)
-    frame = pd.DataFrame(rows)
+    frame = pd.DataFrame(rows, columns=_LEADERBOARD_COLUMNS)
     for col in ("configuration", "method", "dataset"):
         frame[col] = frame[col].map(fmt.csv_text)
     return frame.to_csv(index=False, lineterminator="\n")

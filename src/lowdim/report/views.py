@@ -70,7 +70,10 @@ def overall_table(an: Analysis, *, values: bool = False, compact: bool = False) 
         row = [
             _cell(an.position[m]),
             _cell(m),
-            _cell(fmt.rank(sel) if math.isfinite(sel) else "failed", sel == best_sel),
+            _cell(
+                fmt.rank(sel) if math.isfinite(sel) else "failed",
+                sel == best_sel and math.isfinite(sel),
+            ),
         ]
         for k in keys:
             if values:

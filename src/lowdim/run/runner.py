@@ -8,7 +8,15 @@ The driver (this module) hands jobs to joblib (loky processes by default, or a d
 Caching: a rerun skips every job whose id is already in the store, whatever its status, so a
 rerun recomputes nothing (a failure under the same settings is expected to fail again).
 ``retry=True`` (``--retry``) reruns the jobs that did not finish ``ok``, for instance after
-raising a time limit; ``force=True`` (``--force``) recomputes every job.
+raising a time limit; ``force=True`` (``--force``) recomputes every job. A job recorded ``ok``
+whose embedding (or colour or quality file) is missing or damaged counts as not finished and
+runs again; a job recorded ``ok`` is never replaced by a later attempt that failed, except
+with ``force``.
+
+One writer: the driver claims the results folder (:mod:`lowdim.run.folder`: lowdim writes only
+into folders it created or recognises) and holds its lock for the whole run
+(:mod:`lowdim.run.lock`); a second run into the same folder stops in one line, or waits with
+``wait=True`` (``--wait``).
 
 Determinism: every job runs with the same number of BLAS/OpenMP threads (the suite's
 ``threads``, 1 by default), whatever ``n_jobs`` and the backend, so the floating-point reductions
@@ -33,6 +41,7 @@ from pathlib import Path
 
 from lowdim import __version__
 from lowdim.errors import InputError
+from lowdim.run.folder import results_folder
 from lowdim.run.limits import available_cores
 from lowdim.run.settings import resolve_settings
 from lowdim.run.store import Store
@@ -140,12 +149,16 @@ def _check_parallel(n_jobs: int, backend: str, threads: int) -> int:
     return n_jobs
 
 
-def _select(jobs: list[Job], statuses: dict[str, str], *, force: bool, retry: bool) -> list[Job]:
+def _select(
+    jobs: list[Job], statuses: dict[str, str], damaged: set[str], *, force: bool, retry: bool
+) -> list[Job]:
+    """The jobs to run: all (``force``), those not ``ok`` (``retry``) or those not in the store,
+    and in every case the ``ok`` jobs whose files are missing or damaged."""
     if force:
         return list(jobs)
     if retry:
-        return [j for j in jobs if statuses.get(j.job_id) != "ok"]
-    return [j for j in jobs if j.job_id not in statuses]
+        return [j for j in jobs if statuses.get(j.job_id) != "ok" or j.job_id in damaged]
+    return [j for j in jobs if j.job_id not in statuses or j.job_id in damaged]
 
 
 def _local_results(todo: list[Job], plugins: tuple[str, ...], n_jobs: int) -> Iterator[dict]:
@@ -186,6 +199,7 @@ def run_suite(
     context: dict | None = None,
     blocks: str = "datasets",
     kind: str = "suite",
+    wait: bool = False,
 ) -> RunSummary:
     """Run every job of ``suite`` not yet in ``out_dir``'s store, record it, export the scores.
 
@@ -218,10 +232,19 @@ def run_suite(
         What the blocks of the run's tests are (see :mod:`lowdim.run.settings`).
     kind : {"suite", "confirmation"}, default="suite"
         A confirmation run follows a comparison (:mod:`lowdim.run.confirm`).
+    wait : bool, default=False
+        When another run writes into ``out_dir``, wait for it to end instead of raising
+        :class:`lowdim.run.lock.FolderBusy`.
 
     Returns
     -------
     RunSummary
+
+    Raises
+    ------
+    InputError
+        When ``out_dir`` is a folder lowdim did not create or holds a damaged or foreign
+        store, and :class:`lowdim.run.lock.FolderBusy` when another run writes there.
     """
     from tqdm import tqdm
 
@@ -229,13 +252,29 @@ def run_suite(
     plugins = tuple(str(Path(p).resolve()) for p in plugins)
     settings = resolve_settings(suite, context=context, blocks=blocks)
     jobs = suite.jobs()
-    out_dir = Path(out_dir)
+    command = command or shlex.join(sys.argv)
     tic = time.monotonic()
     counts: Counter[str] = Counter()
-    with _executor(backend, scheduler, n_jobs, suite.threads) as results, Store(out_dir) as store:
-        todo = _select(jobs, store.statuses(), force=force, retry=retry)
+    with (
+        results_folder(out_dir, wait=wait, command=command, option="the results folder") as out,
+        _executor(backend, scheduler, n_jobs, suite.threads) as results,
+        Store(out) as store,
+    ):
+        damaged = store.damaged()
+        todo = _select(jobs, store.statuses(), set(damaged), force=force, retry=retry)
+        again = [j for j in todo if j.job_id in damaged]
+        if again and not force:
+            name, problem = damaged[again[0].job_id][0]
+            log.warning(
+                "%d finished job%s a missing or damaged file and run%s again (the first: %s %s)",
+                len(again),
+                "s have" if len(again) > 1 else " has",
+                "" if len(again) > 1 else "s",
+                name,
+                problem,
+            )
         run_id = store.start_run(
-            command=command or shlex.join(sys.argv),
+            command=command,
             suite_name=suite.name,
             suite_path=suite.source,
             suite_text=suite.text,
@@ -263,10 +302,19 @@ def run_suite(
         )
         try:
             for record in results(todo, plugins) if todo else ():
-                store.record(record, run_id)
+                kept = not store.record(record, run_id, replace_ok=force)
                 job = record["job"]
                 counts[record["status"]] += 1
-                if record["status"] != "ok":
+                if kept:
+                    log.warning(
+                        "%s on %s (seed %d): %s this time; its earlier ok result is kept "
+                        "(--force replaces it)",
+                        job.method_label,
+                        job.dataset_label,
+                        job.seed,
+                        record["status"],
+                    )
+                elif record["status"] != "ok":
                     log.warning(
                         "%s on %s (seed %d): %s: %s",
                         job.method_label,
@@ -284,7 +332,7 @@ def run_suite(
             bar.close()
         store.finish_run(run_id)
     return RunSummary(
-        out_dir=out_dir,
+        out_dir=out,
         run_id=run_id,
         total=len(jobs),
         skipped=len(jobs) - len(todo),

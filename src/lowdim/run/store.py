@@ -12,6 +12,13 @@ same points, which is what seed stability needs) and ``colour`` (``"<kind>:<hash
 ``colours/<hash>.npy``, the values that colour the job's points in the gallery: the first
 intrinsic coordinate, the class labels, or the first principal component).
 
+Records only improve: a job that finished ``ok`` keeps its row, scores and embedding when a
+later attempt fails, unless the caller says so (``--force``). Files can still be lost or damaged
+outside lowdim (a deleted or truncated embedding): :func:`job_file_problems` names them, the
+runner then reruns the job and the report says which file is missing. A ``store.sqlite`` that is
+not an SQLite database, or one without lowdim's tables, is refused in one line by
+:func:`check_store_file` before anything is written.
+
 Schema (see DEVELOPERS.md; ``notes``, the fingerprint, the colour, the run's ``settings``
 record and the ``planned`` table are additions)::
 
@@ -27,6 +34,7 @@ record and the ``planned`` table are additions)::
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import sqlite3
@@ -39,8 +47,23 @@ import numpy as np
 
 from lowdim import __version__
 from lowdim._files import atomic_path
+from lowdim.run.store_checks import (
+    array_problem,
+    check_store_file,
+    damaged_store,
+    is_damage,
+    job_file_problems,
+)
 
-__all__ = ["Store", "STORE_NAME", "SCORE_COLUMNS", "STATUSES", "colour_ref"]
+__all__ = [
+    "Store",
+    "STORE_NAME",
+    "SCORE_COLUMNS",
+    "STATUSES",
+    "colour_ref",
+    "check_store_file",
+    "job_file_problems",
+]
 
 STORE_NAME = "store.sqlite"
 STATUSES = ("ok", "failed", "timeout", "memory")
@@ -181,6 +204,8 @@ class Store:
         self.path = self.folder / STORE_NAME
         if (read_only or not create) and not self.path.is_file():
             raise FileNotFoundError(2, "no results store in this folder", str(self.path))
+        if self.path.exists():
+            check_store_file(self.path)
         if read_only:
             self.db = sqlite3.connect(f"{self.path.resolve().as_uri()}?mode=ro", uri=True)
             return
@@ -189,10 +214,28 @@ class Store:
         # autocommit mode: transactions are opened explicitly, one per finished job.
         self.db = sqlite3.connect(self.path, isolation_level=None, timeout=30)
         if create:
-            self.db.execute("PRAGMA journal_mode=WAL")
-            self.db.execute("PRAGMA synchronous=FULL")
-            self.db.executescript(_SCHEMA)
-            self._add_missing_columns()
+            with self._guard():
+                self.db.execute("PRAGMA journal_mode=WAL")
+                self.db.execute("PRAGMA synchronous=FULL")
+                self.db.executescript(_SCHEMA)
+                self._add_missing_columns()
+
+    @contextlib.contextmanager
+    def _guard(self) -> Iterator[None]:
+        """Turn SQLite's word for a damaged file into one line naming it and what to do."""
+        try:
+            yield
+        except sqlite3.DatabaseError as exc:
+            if is_damage(exc):
+                raise damaged_store(self.path, exc) from None
+            raise
+
+    def _rows(self, sql: str, params: tuple = ()) -> tuple[list[str], list[tuple]]:
+        """Column names and every row of a query, read whole inside the damage guard."""
+        with self._guard():
+            cur = self.db.execute(sql, params)
+            rows = cur.fetchall()
+        return [c[0] for c in cur.description or ()], rows
 
     def _add_missing_columns(self) -> None:
         for table, columns in _ADDED_COLUMNS.items():
@@ -230,7 +273,17 @@ class Store:
 
     def statuses(self) -> dict[str, str]:
         """``job_id -> status`` of every finished job."""
-        return dict(self.db.execute("SELECT job_id, status FROM jobs"))
+        return dict(self._rows("SELECT job_id, status FROM jobs")[1])
+
+    def damaged(self) -> dict[str, list[tuple[str, str]]]:
+        """``job_id -> [(file, problem), ...]`` for each ``ok`` job whose files are missing or
+        damaged (see :func:`job_file_problems`)."""
+        found, checked = {}, {}
+        for job in self.jobs():
+            problems = job_file_problems(self.folder, job, checked)
+            if problems:
+                found[job["job_id"]] = problems
+        return found
 
     def start_run(
         self,
@@ -248,31 +301,32 @@ class Store:
         ``run_id``. ``kind`` is ``"suite"``, or ``"confirmation"`` for the whole-file run that
         follows a comparison (its verdict stays the main run's)."""
         db = self.db
-        db.execute("BEGIN IMMEDIATE")
-        try:
-            cur = db.execute(
-                "INSERT INTO runs (command, suite_name, suite_path, suite_text, environment, "
-                "started, settings, kind) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                (
-                    command,
-                    suite_name,
-                    suite_path,
-                    suite_text,
-                    _json(environment),
-                    _now(),
-                    settings,
-                    kind,
-                ),
-            )
-            run_id = int(cur.lastrowid)
-            db.executemany(
-                "INSERT OR REPLACE INTO planned VALUES (?, ?, ?, ?, ?)",
-                [(run_id, *row) for row in planned],
-            )
-            db.execute("COMMIT")
-        except BaseException:
-            db.execute("ROLLBACK")
-            raise
+        with self._guard():
+            db.execute("BEGIN IMMEDIATE")
+            try:
+                cur = db.execute(
+                    "INSERT INTO runs (command, suite_name, suite_path, suite_text, environment, "
+                    "started, settings, kind) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    (
+                        command,
+                        suite_name,
+                        suite_path,
+                        suite_text,
+                        _json(environment),
+                        _now(),
+                        settings,
+                        kind,
+                    ),
+                )
+                run_id = int(cur.lastrowid)
+                db.executemany(
+                    "INSERT OR REPLACE INTO planned VALUES (?, ?, ?, ?, ?)",
+                    [(run_id, *row) for row in planned],
+                )
+                db.execute("COMMIT")
+            except BaseException:
+                db.execute("ROLLBACK")
+                raise
         return run_id
 
     def finish_run(self, run_id: int) -> None:
@@ -283,14 +337,18 @@ class Store:
         with atomic_path(path) as temporary, open(temporary, "wb") as fh:
             np.save(fh, values)
 
-    def record(self, result: dict, run_id: int | None = None) -> None:
+    def record(self, result: dict, run_id: int | None = None, *, replace_ok: bool = False) -> bool:
         """Write one finished job: its embedding file, then its row and scores in one transaction.
 
         ``result`` is a record from :func:`lowdim.run.worker.run_job`. Writing a job again
-        (``--force``) replaces its row and all its scores.
+        replaces its row and all its scores, except that a job recorded ``ok`` is never
+        replaced by an attempt that was not, unless ``replace_ok`` (``--force``): its row, its
+        scores and its embedding stay. Return whether the record was written.
         """
         job = result["job"]
         ok = result["status"] == "ok" and result.get("embedding") is not None
+        if not ok and not replace_ok and self._is_ok(job.job_id):
+            return False
         if ok:
             self._write_array(self.embeddings / f"{job.job_id}.npy", result["embedding"])
         if ok and result.get("quality") is not None:
@@ -304,7 +362,7 @@ class Store:
         if result.get("colour") is not None:
             kind, values = result["colour"]
             colour = colour_ref(kind, values)
-            if not self.colour_path(colour).is_file():
+            if array_problem(self.colour_path(colour), len(values)) is not None:
                 self._write_array(self.colour_path(colour), values)
         row = (
             job.job_id,
@@ -334,64 +392,67 @@ class Store:
             None if result.get("diagnoses") is None else _json(result["diagnoses"]),
         )
         db = self.db
-        db.execute("BEGIN IMMEDIATE")
-        try:
-            db.execute("DELETE FROM scores WHERE job_id = ?", (job.job_id,))
-            db.execute(
-                f"INSERT OR REPLACE INTO jobs ({', '.join(_JOB_COLUMNS)}) "
-                f"VALUES ({', '.join('?' * len(row))})",
-                row,
-            )
-            db.executemany(
-                "INSERT OR REPLACE INTO scores VALUES (?, ?, ?, ?)",
-                [(job.job_id, m, int(k), float(v)) for m, k, v in result.get("values", [])],
-            )
-            db.execute("COMMIT")
-        except BaseException:
-            db.execute("ROLLBACK")
-            raise
+        with self._guard():
+            db.execute("BEGIN IMMEDIATE")
+            try:
+                # checked again inside the transaction: nothing can turn the job ok meanwhile
+                if not ok and not replace_ok and self._is_ok(job.job_id):
+                    db.execute("ROLLBACK")
+                    return False
+                db.execute("DELETE FROM scores WHERE job_id = ?", (job.job_id,))
+                db.execute(
+                    f"INSERT OR REPLACE INTO jobs ({', '.join(_JOB_COLUMNS)}) "
+                    f"VALUES ({', '.join('?' * len(row))})",
+                    row,
+                )
+                db.executemany(
+                    "INSERT OR REPLACE INTO scores VALUES (?, ?, ?, ?)",
+                    [(job.job_id, m, int(k), float(v)) for m, k, v in result.get("values", [])],
+                )
+                db.execute("COMMIT")
+            except BaseException:
+                db.execute("ROLLBACK")
+                raise
         if not ok:
             (self.embeddings / f"{job.job_id}.npy").unlink(missing_ok=True)
+        return True
+
+    def _is_ok(self, job_id: str) -> bool:
+        row = self.db.execute("SELECT status FROM jobs WHERE job_id = ?", (job_id,)).fetchone()
+        return row is not None and row[0] == "ok"
 
     def score_rows(self) -> Iterator[tuple]:
         """Long-form score rows ``(job_id, dataset, method, seed, metric, k, value)``."""
-        yield from self.db.execute(
+        yield from self._rows(
             "SELECT s.job_id, j.dataset_label, j.method_label, j.seed, s.metric, s.k, s.value "
             "FROM scores s JOIN jobs j USING (job_id) "
             "ORDER BY j.dataset_label, j.method_label, j.seed, s.metric, s.k"
-        )
+        )[1]
 
     def latest_run(self) -> dict | None:
         """The most recent row of ``runs`` as a dict, or None."""
-        cur = self.db.execute("SELECT * FROM runs ORDER BY run_id DESC LIMIT 1")
-        row = cur.fetchone()
-        if row is None:
-            return None
-        return dict(zip([c[0] for c in cur.description], row, strict=True))
+        names, rows = self._rows("SELECT * FROM runs ORDER BY run_id DESC LIMIT 1")
+        return dict(zip(names, rows[0], strict=True)) if rows else None
 
     def planned(self, run_id: int) -> list[tuple[str, str, str, int]]:
-        return list(
-            self.db.execute(
-                "SELECT job_id, dataset_label, method_label, seed FROM planned WHERE run_id = ?",
-                (run_id,),
-            )
-        )
+        return self._rows(
+            "SELECT job_id, dataset_label, method_label, seed FROM planned WHERE run_id = ?",
+            (run_id,),
+        )[1]
 
     def jobs(self) -> list[dict]:
         """Every row of ``jobs`` as a dict."""
-        cur = self.db.execute("SELECT * FROM jobs ORDER BY dataset_label, method_label, seed")
-        names = [c[0] for c in cur.description]
-        return [dict(zip(names, row, strict=True)) for row in cur]
+        names, rows = self._rows("SELECT * FROM jobs ORDER BY dataset_label, method_label, seed")
+        return [dict(zip(names, row, strict=True)) for row in rows]
 
     def table(self, name: str) -> tuple[list[str], list[tuple]]:
         """Column names and rows of one of the store's tables (empty when it is absent)."""
-        exists = self.db.execute(
+        _, exists = self._rows(
             "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?", (name,)
-        ).fetchone()
+        )
         if not exists:
             return [], []
-        cur = self.db.execute(f"SELECT * FROM {name}")
-        return [c[0] for c in cur.description], cur.fetchall()
+        return self._rows(f"SELECT * FROM {name}")
 
     def integrity(self) -> str:
         return self.db.execute("PRAGMA integrity_check").fetchone()[0]
