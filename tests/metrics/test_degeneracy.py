@@ -1,5 +1,6 @@
 """Degenerate embeddings named: each check on cases that must trigger and on healthy ones."""
 
+import tracemalloc
 import warnings
 
 import numpy as np
@@ -184,3 +185,26 @@ def test_records_are_plain():
     }
     assert record["kind"] in KINDS
     assert_allclose(record["value"], 0.2)
+
+
+def test_near_identical_rows_of_a_large_embedding_are_counted_on_every_row():
+    Y = gaussian(50_000)
+    Y[:1_000] = [3.0, -1.0] + 1e-9 * gaussian(1_000, seed=1)  # 2 % of the rows on one point
+    found = duplicate_clusters(Y, random_state=3)
+    assert [(d.kind, d.size) for d in found] == [("collapsed_component", 1_000)]
+    assert found[0].value < 1e-6
+    assert duplicate_clusters(gaussian(50_000), random_state=3) == []
+
+
+def test_the_duplicate_search_on_a_dense_curve_stays_small():
+    # An embedding drawn as a curve (a harmonic coordinate): every row has hundreds of rows
+    # within the collapse radius, and a radius graph over all 200,000 rows would hold tens of
+    # millions of pairs. The search looks at a sample, so its memory does not grow with n.
+    t = np.random.default_rng(0).uniform(-1.0, 1.0, 200_000)
+    Y = np.column_stack([t, t**2])
+    tracemalloc.start()
+    found = duplicate_clusters(Y)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    assert found == []
+    assert peak < 64 * 2**20

@@ -92,6 +92,8 @@ CONSTANT_WEIGHT = 0.9
 # median to well under 1 %); and query points for the median point's off-diagonal mass.
 _MEDIAN_POINTS = 500
 _MASS_POINTS = 256
+# Rows searched for near-identical groups (see duplicate_clusters).
+DUPLICATE_SAMPLE = 2000
 
 
 @dataclass(frozen=True)
@@ -236,13 +238,25 @@ def collapsed_components(
 
 
 def duplicate_clusters(
-    Y: ArrayLike, *, tolerance: float = COLLAPSE_TOLERANCE, min_size: int | None = None
+    Y: ArrayLike,
+    *,
+    tolerance: float = COLLAPSE_TOLERANCE,
+    min_size: int | None = None,
+    sample_size: int = DUPLICATE_SAMPLE,
+    random_state: int | None = 0,
 ) -> list[Degeneracy]:
     """Clusters of near-identical rows of the embedding, found without the graph.
 
     Rows within ``tolerance`` times the embedding's spread of each other are joined; a group
     of ``min_size`` (default: the larger of 5 and 1 % of the rows) or more whose extent is
     itself below that is reported.
+
+    Above ``sample_size`` rows the groups are looked for among that many random rows (a group
+    of 1 % of the rows then shows about 20 of them; one of half that is taken as a lead), and
+    each lead is counted on every row: the rows in its box widened by the tolerance. The pairs
+    within the radius are never more than ``sample_size`` squared, whatever the embedding, so
+    the check's memory is bounded where a collapse puts every row within the radius of every
+    other.
     """
     Y = _embedding(Y)
     n = Y.shape[0]
@@ -250,15 +264,25 @@ def duplicate_clusters(
     scale = _spread(Y)
     if scale == 0.0 or n < min_size:
         return []
-    close = NearestNeighbors(radius=tolerance * scale).fit(Y).radius_neighbors_graph(Y)
+    radius = tolerance * scale
+    if n > sample_size:
+        rows = np.sort(np.random.default_rng(random_state).choice(n, sample_size, replace=False))
+        lead_size = max(3, int(np.ceil(0.5 * min_size * sample_size / n)))
+    else:
+        rows, lead_size = np.arange(n), min_size
+    part = Y[rows]
+    close = NearestNeighbors(radius=radius).fit(part).radius_neighbors_graph(part)
     count, labels = scipy.sparse.csgraph.connected_components(close, directed=False)
     sizes = np.bincount(labels, minlength=count)
     out = []
-    number = 0
-    for label in np.flatnonzero(sizes >= min_size):
-        size = int(sizes[label])
-        extent = float(np.max(np.ptp(Y[labels == label], axis=0)) / scale)
-        if extent >= tolerance:
+    for label in np.flatnonzero(sizes >= lead_size):
+        members = part[labels == label]
+        if n > sample_size:
+            low, high = members.min(axis=0) - radius, members.max(axis=0) + radius
+            members = Y[np.all((Y >= low) & (Y <= high), axis=1)]
+        size = members.shape[0]
+        extent = float(np.max(np.ptp(members, axis=0)) / scale)
+        if size < min_size or extent >= tolerance:
             continue  # a chain through a dense region, not points on top of one another
         out.append(
             Degeneracy(
@@ -268,11 +292,10 @@ def duplicate_clusters(
                 f"{size} points are drawn on top of one another (extent {extent:.1e} of the "
                 "embedding's spread): a part of the data collapsed to a point, as a "
                 "disconnected graph does to a component",
-                component=number,
+                component=len(out),
                 size=size,
             )
         )
-        number += 1
     return out
 
 
@@ -446,7 +469,7 @@ def find_degeneracies(
     residuals = _read(fitted, "eigen_residuals_")
     if residuals is not None:
         found += harmonic_coordinates(residuals, _read(fitted, "eigenvector_indices_"))
-    found += _components(Y, X, fitted, n_neighbors)
+    found += _components(Y, X, fitted, n_neighbors, random_state)
     found += flat_coordinates(Y)
     found += concentrated_variance(Y)
     bandwidth = _read(fitted, "bandwidth_")
@@ -458,16 +481,20 @@ def find_degeneracies(
     return found
 
 
-def _components(Y: np.ndarray, X, fitted, n_neighbors: int | None) -> list[Degeneracy]:
+def _components(
+    Y: np.ndarray, X, fitted, n_neighbors: int | None, random_state: int | None
+) -> list[Degeneracy]:
     count = _read(fitted, "n_connected_components_")
     if count is None or int(count) <= 1:
-        return duplicate_clusters(Y)
+        return duplicate_clusters(Y, random_state=random_state)
     k = n_neighbors if n_neighbors is not None else _read(fitted, "n_neighbors_") or 10
     if X is not None:
         found, labels = graph_components(X, k)
         if found == int(count):
-            return collapsed_components(Y, labels) or duplicate_clusters(Y)
-    clusters = duplicate_clusters(Y)
+            return collapsed_components(Y, labels) or duplicate_clusters(
+                Y, random_state=random_state
+            )
+    clusters = duplicate_clusters(Y, random_state=random_state)
     disconnected = Degeneracy(
         "collapsed_component",
         float(count),
