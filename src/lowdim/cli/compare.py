@@ -179,7 +179,7 @@ def _compare(plan: ComparePlan, args: argparse.Namespace) -> int:
             plan, [(m, first.spec_of(m)) for m in leaders], n_jobs=args.jobs, quiet=args.quiet
         )
     analysis = analyse_folder(plan.out_dir)
-    report = build_report(plan.out_dir)
+    report = build_report(plan.out_dir, analysis=analysis)
     board = overall_table(analysis, values=True, compact=True)
     parts = [
         f"Ranked by {board.header[2]} (mean ± spread over the resamples):",

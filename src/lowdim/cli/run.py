@@ -104,7 +104,7 @@ def run(args: argparse.Namespace) -> int:
         )
         analysis = analyse_folder(out_dir)
         if args.report:
-            report = build_report(out_dir)
+            report = build_report(out_dir, analysis=analysis)
         else:
             write_tables(analysis)
             report = None

@@ -138,17 +138,20 @@ def draw_figures(an: Analysis, folder: Path) -> tuple[dict[str, Path], dict[str,
     return figures, captions
 
 
-def build_report(out_dir: str | Path, *, selection: str | None = None) -> Path:
+def build_report(
+    out_dir: str | Path, *, selection: str | None = None, analysis: Analysis | None = None
+) -> Path:
     """Rebuild every output of a results folder from its store alone; return report.html.
 
     ``selection`` overrides the run's selection criterion (see :func:`analyse`).
+    ``analysis``, when the caller has just analysed the same store, is used as it is.
 
     Raises
     ------
     InputError
         When ``out_dir`` holds no store, or the store no settings record or no jobs.
     """
-    an = analyse_folder(Path(out_dir), selection=selection)
+    an = analysis if analysis is not None else analyse_folder(Path(out_dir), selection=selection)
     write_tables(an)
     figures, captions = draw_figures(an, an.results.out_dir / "figures")
     html = render_report(an, figures, captions, __version__)
