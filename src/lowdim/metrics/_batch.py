@@ -11,6 +11,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from lowdim.errors import InputError
+from lowdim.metrics import _input_memo
 from lowdim.metrics._checks import check_k, check_labels, check_pair, check_truth
 from lowdim.metrics._neighbors import (
     EXACT_THRESHOLD,
@@ -122,8 +123,15 @@ class _Job:
         # The embedding's distance ranks serve distance_spearman and truth_spearman alike.
         key = f"ranks_{which}"
         if key not in self.cache:
-            Z = {"X": self.X, "Y": self.Y, "truth": self.truth}[which]
-            self.cache[key] = centred_distance_ranks(Z, self.subset)
+            memo = self.ctx.memo if which == "X" else None
+            kept_as = ("distance_ranks", None if self.subset is None else self.subset.tobytes())
+            if memo is not None and kept_as in memo:
+                self.cache[key] = memo[kept_as]
+            else:
+                Z = {"X": self.X, "Y": self.Y, "truth": self.truth}[which]
+                self.cache[key] = centred_distance_ranks(Z, self.subset)
+                if memo is not None:
+                    memo[kept_as] = self.cache[key]
         return self.cache[key]
 
     def need_labels(self) -> tuple[np.ndarray, int]:
@@ -320,7 +328,14 @@ def score_embedding(
         listed += [k for values in point_ks.values() for k in values]
     rows = sample_rows(n, exact_threshold, sample_size, random_state)
     full_rows = sample_rows(n, full_rank_threshold, sample_size, random_state)
-    ctx = Neighbourhoods(X, Y, k_lists=max(listed, default=1), rows=rows, full_rows=full_rows)
+    ctx = Neighbourhoods(
+        X,
+        Y,
+        k_lists=max(listed, default=1),
+        rows=rows,
+        full_rows=full_rows,
+        memo=_input_memo.lookup(X),
+    )
     job = _Job(
         X=X,
         Y=Y,

@@ -322,6 +322,8 @@ class Neighbourhoods:
         Query rows for the rank-based criteria (None: all rows, exact).
     full_rows : ndarray or None
         Query rows for the criteria that need full ranks (None: all rows, exact).
+    memo : dict or None
+        Where values that depend on X alone are kept across embeddings of the same X.
     """
 
     def __init__(
@@ -332,8 +334,11 @@ class Neighbourhoods:
         k_lists: int,
         rows: np.ndarray | None = None,
         full_rows: np.ndarray | None = None,
+        memo: dict | None = None,
     ) -> None:
         self.X = X
+        # Values that depend on X alone, kept across embeddings (lowdim.metrics._input_memo).
+        self.memo = memo
         self.Y = Y
         self.n = X.shape[0]
         self.k_lists = k_lists
@@ -348,7 +353,14 @@ class Neighbourhoods:
     @cached_property
     def nx(self) -> np.ndarray:
         """The k_lists nearest neighbours of every point in the input space."""
-        return knn_lists(self.X, self.k_lists)
+        kept = None if self.memo is None else self.memo.get("lists")
+        if kept is not None and kept.shape[1] >= self.k_lists:
+            # The first k of the exact (distance, index) order are the k nearest.
+            return np.ascontiguousarray(kept[:, : self.k_lists])
+        lists = knn_lists(self.X, self.k_lists)
+        if self.memo is not None:
+            self.memo["lists"] = lists
+        return lists
 
     @cached_property
     def ny(self) -> np.ndarray:

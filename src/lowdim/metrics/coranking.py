@@ -54,6 +54,8 @@ __all__ = [
 ]
 
 LEE_VERLEYSEN = "Lee & Verleysen, Neurocomputing 72, 2009"
+# The input's full ranks are kept across embeddings up to this many entries (int32: 64 MB).
+MEMO_RANKS = 1 << 24
 
 
 def qnx_from_lists(nx: np.ndarray, ny: np.ndarray) -> np.ndarray:
@@ -128,15 +130,28 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
     row_auc = np.empty(rows.size)
     step = block_rows(n, per_row=12)
 
+    # The input's ranks depend on X alone: kept across embeddings when they are small.
+    memo = ctx.memo if ctx.memo is not None and rows.size * n <= MEMO_RANKS else None
+    kept = None
+    if memo is not None:
+        kept = memo.setdefault(("full_ranks", rows.tobytes(), step), {})
+
+    def x_ranks(blk: np.ndarray, start: int) -> np.ndarray:
+        if kept is not None and start in kept:
+            return kept[start]
+        D = ranking_keys(X[blk], X, x_half)
+        D[np.arange(blk.size), blk] = -np.inf
+        ranks = _row_ranks(D)
+        if kept is not None:
+            kept[start] = ranks
+        return ranks
+
     def work(start: int) -> np.ndarray:
         blk = rows[start : start + step]
         b = blk.size
-        worst = None
-        for Z, half in ((X, x_half), (Y, y_half)):
-            D = ranking_keys(Z[blk], Z, half)
-            D[np.arange(b), blk] = -np.inf
-            ranks = _row_ranks(D)
-            worst = ranks if worst is None else np.maximum(worst, ranks)
+        D = ranking_keys(Y[blk], Y, y_half)
+        D[np.arange(b), blk] = -np.inf
+        worst = np.maximum(x_ranks(blk, start), _row_ranks(D))
         if not ctx.full_sampled:
             return np.bincount(worst.ravel(), minlength=n)
         # Per-row areas, for the standard error of the sampled estimate.

@@ -16,7 +16,7 @@ import os
 from collections import OrderedDict
 from typing import Any
 
-__all__ = ["MAX_FILE_BYTES", "MAX_GENERATED_ROWS", "KEPT", "cached", "warm"]
+__all__ = ["MAX_FILE_BYTES", "MAX_GENERATED_ROWS", "KEPT", "cached", "key", "warm"]
 
 MAX_FILE_BYTES = 64 * 2**20
 MAX_GENERATED_ROWS = 200_000
@@ -26,7 +26,8 @@ KEPT = 4
 _DATASETS: OrderedDict[str, Any] = OrderedDict()
 
 
-def _key(job: Any) -> str:
+def key(job: Any) -> str:
+    """What tells one job's dataset from another's."""
     return json.dumps([job.dataset_spec, job.data_sha256], sort_keys=True, default=str)
 
 
@@ -44,10 +45,10 @@ def _small(spec: dict) -> bool:
 def cached(job: Any) -> Any:
     """``(dataset, warnings its loading raised)`` for ``job`` if this process keeps it, else
     None."""
-    key = _key(job)
-    if key in _DATASETS:
-        _DATASETS.move_to_end(key)
-        return _DATASETS[key]
+    name = key(job)
+    if name in _DATASETS:
+        _DATASETS.move_to_end(name)
+        return _DATASETS[name]
     return None
 
 
@@ -65,6 +66,6 @@ def warm(job: Any, plugins: tuple[str, ...] = ()) -> None:
             data = datasets.load(dict(job.dataset_spec))
     except Exception:  # the child loads it again under the job's limits and reports why
         return
-    _DATASETS[_key(job)] = (data, list(caught))
+    _DATASETS[key(job)] = (data, list(caught))
     while len(_DATASETS) > KEPT:
         _DATASETS.popitem(last=False)

@@ -164,25 +164,14 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
                 f"the method returned an embedding of shape {Y.shape} for {X.shape[0]} samples; "
                 "fit_transform must return one row per sample"
             )
-        wanted = (
-            None if job.metrics is None else [m for m in job.metrics if m not in RUNNER_METRICS]
-        )
+        wanted = _wanted(job)
         values: list[tuple[str, int, float]] = []
         notes: list[str] = []
         sample_size = None
         quality = None
         tic = time.perf_counter()
         if wanted is None or wanted:
-            scores = metrics.score_embedding(
-                X,
-                Y,
-                metrics=wanted,
-                ks=job.neighbors,
-                labels=data.labels,
-                truth=data.truth,
-                random_state=job.seed,
-                per_point_k=headline_k(job.neighbors),
-            )
+            scores = metrics.score_embedding(X, Y, **_scoring(job, wanted, data))
             values = [(str(m), int(k or 0), float(v)) for m, k, v in scores.values]
             notes = [str(n) for n in (scores.notes or [])]
             sample_size = scores.sample_size
@@ -219,9 +208,48 @@ def execute_job(job: Job, plugins: tuple[str, ...] = ()) -> dict:
     }
 
 
-# The process that forks a job's child loads the job's small dataset first (lowdim.run.limits
-# calls this before forking), so the children of one worker share one load.
-execute_job.prepare = datacache.warm  # type: ignore[attr-defined]
+def _wanted(job: Job) -> list[str] | None:
+    """The criteria scored from the embedding (None: every one)."""
+    return None if job.metrics is None else [m for m in job.metrics if m not in RUNNER_METRICS]
+
+
+def _scoring(job: Job, wanted: list[str] | None, data: Any) -> dict[str, Any]:
+    """score_embedding's settings for ``job``: one place for the job and for priming."""
+    return {
+        "metrics": wanted,
+        "ks": job.neighbors,
+        "labels": data.labels,
+        "truth": data.truth,
+        "random_state": job.seed,
+        "per_point_k": headline_k(job.neighbors),
+    }
+
+
+_PRIMED: set[tuple] = set()
+
+
+def prepare_job(job: Job, plugins: tuple[str, ...] = ()) -> None:
+    """Work the children of one worker share, done once before forking them: load the job's
+    small dataset, and compute the input side of its scoring (the neighbour lists and ranks
+    of X that every embedding of it is scored against; lowdim.metrics._input_memo)."""
+    datacache.warm(job, plugins)
+    kept = datacache.cached(job)
+    wanted = _wanted(job)
+    primed = (datacache.key(job), job.seed, tuple(job.neighbors), repr(wanted), job.n_components)
+    if kept is None or wanted == [] or primed in _PRIMED:
+        return
+    _PRIMED.add(primed)
+    from lowdim.metrics import _input_memo
+
+    data = kept[0]
+    # One thread, as the job's children will use: the forking process stays single-threaded.
+    with threadpool_limits(limits=1), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        _input_memo.prime(data.X, job.n_components, **_scoring(job, wanted, data))
+
+
+# lowdim.run.limits calls this in the process that forks a job's child, before forking.
+execute_job.prepare = prepare_job  # type: ignore[attr-defined]
 
 
 def run_job(job: Job, plugins: tuple[str, ...] = (), watch: tuple[str, int] | None = None) -> dict:
