@@ -88,6 +88,9 @@ def test_a_run_names_one_winner_everywhere_with_a_tie(tmp_path: Path, capsys) ->
     summaries = html[
         html.index('<section id="verdict">') : html.index('<section id="statistics">')
     ]
+    # a tie is said as one, not as a lead "from 0.0000 to 0.0000"
+    assert "It scores the same as classical_mds on" in summaries
+    assert "Its lead over" not in summaries
     for text in ((out / "leaderboard.md").read_text(), summaries):
         assert "trustworthiness (K = 10)" in text
         assert "trustworthiness (K = 5)" not in text and "trustworthiness (K = 30)" not in text

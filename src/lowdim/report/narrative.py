@@ -347,10 +347,14 @@ def consistency(an: Analysis) -> str | None:
     lead = an.lead()
     if len(lead) >= 2 and an.runner_up is not None:
         title = criterion_title(an.effect)
-        text += (
-            f". Its lead over {an.runner_up} on {title} ranges from {fmt.number(lead.min())} to "
-            f"{fmt.number(lead.max())} across them (median {fmt.number(float(lead.median()))})"
-        )
+        if bool((lead == 0).all()):
+            text += f". It scores the same as {an.runner_up} on {title} in every one of them"
+        else:
+            text += (
+                f". Its lead over {an.runner_up} on {title} ranges from "
+                f"{fmt.number(lead.min())} to {fmt.number(lead.max())} across them (median "
+                f"{fmt.number(float(lead.median()))})"
+            )
     return text + "."
 
 
