@@ -9,6 +9,7 @@ data calls for caution (from the settings record's ``context``).
 
 from __future__ import annotations
 
+import json
 import shlex
 from pathlib import Path
 
@@ -156,6 +157,7 @@ def _bandwidths(an: Analysis, values: pd.DataFrame) -> list[str]:
             and m in jobs.index
             and "bandwidth" in jobs.at[m, "config_spec"]
         ]
+        swept = _one_bandwidth_axis(swept, jobs)
         if len(swept) < 2:
             continue
         widest = None
@@ -172,9 +174,13 @@ def _bandwidths(an: Analysis, values: pd.DataFrame) -> list[str]:
         best, worst = (col.idxmax(), col.idxmin()) if higher else (col.idxmin(), col.idxmax())
 
         def bw(m: str) -> str:
-            return str(jobs.at[m, "config_spec"]["bandwidth"])
+            return _bandwidth_text(m, jobs.at[m, "config_spec"]["bandwidth"])
 
-        rules = [f"{bw(m)} {fmt.number(col[m])}" for m in col.index if not _is_number(bw(m))]
+        rules = [
+            f"{bw(m)} {fmt.number(col[m])}"
+            for m in col.index
+            if not _is_number(str(jobs.at[m, "config_spec"]["bandwidth"]))
+        ]
         picks = f"; the rules give {', '.join(rules)}" if rules else ""
         lines.append(
             f"{family} is sensitive to the bandwidth: {criterion_title(key)} ranges from "
@@ -183,6 +189,36 @@ def _bandwidths(an: Analysis, values: pd.DataFrame) -> list[str]:
             "pick before trusting a plot."
         )
     return lines
+
+
+def _bandwidth_text(label: str, value: object) -> str:
+    """The bandwidth as the configuration's label words it ("4 × median distance (76.3)"),
+    else its value."""
+    start = label.find("bandwidth=")
+    if start < 0:
+        return str(value)
+    start += len("bandwidth=")
+    depth = 0
+    for end in range(start, len(label)):
+        char = label[end]
+        if char == "(":
+            depth += 1
+        elif char in "),":
+            if depth == 0:
+                return label[start:end]
+            if char == ")":
+                depth -= 1
+    return label[start:]
+
+
+def _one_bandwidth_axis(configs: list[str], jobs: pd.DataFrame) -> list[str]:
+    """The largest group of ``configs`` that differ in their bandwidth alone (the first in
+    the order on a tie): a sensitivity read along one axis, other settings held."""
+    groups: dict[str, list[str]] = {}
+    for m in configs:
+        rest = {k: v for k, v in jobs.at[m, "config_spec"].items() if k != "bandwidth"}
+        groups.setdefault(json.dumps(rest, sort_keys=True, default=str), []).append(m)
+    return max(groups.values(), key=len) if groups else []
 
 
 def _is_number(text: str) -> bool:
