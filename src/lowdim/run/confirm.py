@@ -41,9 +41,9 @@ def confirmation_suite(plan: ComparePlan, leaders: list[tuple[str, dict]]) -> di
     dataset.pop("subsample_seed", None)
     if rows < n:
         dataset.update(subsample=rows, subsample_seed=0)
-        dataset["label"] = f"{plan.file.stem} ({rows} of {n} rows)"
+        dataset["label"] = f"{plan.file.stem}, {rows} of {n} rows"
     else:
-        dataset["label"] = f"{plan.file.stem} (all {n} rows)"
+        dataset["label"] = f"{plan.file.stem}, all {n} rows"
     methods = []
     for label, spec in leaders:
         methods.append({**spec, "label": label})
