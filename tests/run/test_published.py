@@ -70,3 +70,20 @@ def test_a_bad_published_table_is_one_line(tmp_path: Path):
         suite_from_dict(suite(csv), str(tmp_path / "s.toml"))
     with pytest.raises(InputError, match="is not a file"):
         suite_from_dict(suite(tmp_path / "none.csv"), str(tmp_path / "s.toml"))
+
+
+def test_a_protocol_without_its_figures_says_so_and_lists_its_choices(
+    tmp_path: Path, write_suite_store
+):
+    data = suite(tmp_path / "unused.csv")
+    del data["suite"]["published"]
+
+    def score(job):
+        return {("trustworthiness", 10): 0.8, ("rnx_auc", 0): 0.4}
+
+    folder = write_suite_store(tmp_path / "out", data, score)
+    from lowdim.report import build_report
+
+    page = build_report(folder).read_text()
+    assert "gives no table of its figures" in page
+    assert "noise 0.05: the paper does not print it" in page
