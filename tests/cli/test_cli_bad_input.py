@@ -122,6 +122,20 @@ def test_unknown_label_column(reef, folder, capsys):
     assert left_behind(folder) == []
 
 
+@pytest.mark.parametrize(
+    "target, fragment",
+    [
+        ("nosuch.module:Thing", "--with: cannot import 'nosuch.module:Thing': no module named"),
+        ("sklearn.linear_model:LinearRegression", "is not a transformer"),
+        ("sklearn.manifold:NoSuchEmbedding", "has no attribute 'NoSuchEmbedding'"),
+    ],
+)
+def test_a_with_that_is_not_a_transformer_writes_nothing(target, fragment, reef, folder, capsys):
+    args = ["compare", str(reef), "--quick", "--with", target, "--out", str(folder / "out" / "r")]
+    assert_one_line_error(*run_cli(args, capsys), fragment)
+    assert left_behind(folder) == []
+
+
 def test_suite_that_is_not_toml(folder, capsys):
     suite = folder / "broken.toml"
     suite.write_text('[suite]\nname = "reef\n')

@@ -125,3 +125,28 @@ def test_one_feature_column_is_refused(tmp_path):
     pd.DataFrame({"reading": np.arange(20.0), "id": np.arange(20)}).to_csv(path, index=False)
     with pytest.raises(InputError, match="has one feature column"):
         plan_comparison(path, CompareOptions(drop=("id",)))
+
+
+def test_a_slow_peer_named_in_methods_joins_the_standard_sweep(cabinet):
+    plan = plan_comparison(cabinet, CompareOptions(labels="stage", methods=("pca", "tsne")))
+    names = [t.get("name") for t in plan.suite["methods"]]
+    assert names == ["pca", "tsne"]
+    left_out = dict(map(tuple, plan.context["left_out"]))
+    assert "tsne" not in left_out and "umap" in left_out
+
+
+def test_a_named_peer_that_cannot_run_says_what_to_install(cabinet, monkeypatch):
+    from lowdim.methods import get_method
+
+    umap = get_method("umap")
+    monkeypatch.setattr(
+        umap,
+        "unavailable",
+        classmethod(lambda cls: "needs umap-learn, which is not installed: pip install 'x'"),
+    )
+    with pytest.raises(InputError) as caught:
+        plan_comparison(cabinet, CompareOptions(labels="stage", methods=("umap",)))
+    assert str(caught.value) == (
+        "--methods names 'umap', which cannot run here: needs umap-learn, which is not "
+        "installed: pip install 'x'"
+    )

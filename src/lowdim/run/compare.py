@@ -212,11 +212,7 @@ def _check_options(options: CompareOptions) -> None:
         if isinstance(value, bool) or not isinstance(value, int) or value < low:
             raise InputError(f"{name} must be an integer of at least {low}, got {value!r}")
     for target in options.extra:
-        if ":" not in target:
-            raise InputError(
-                f"--with {target!r} must name a class as module:Class, e.g. "
-                "--with sklearn.manifold:Isomap"
-            )
+        _check_import(target)
     both = set(options.keep) & set(options.features)
     if both:
         raise InputError(
@@ -265,12 +261,18 @@ def _candidates(
     from lowdim.methods.peers import peer_tables
 
     tables = method_tables(options.sweep, median, n)
-    peers, left_out = peer_tables(
-        "slow" if options.sweep == "full" else "fast",
-        n,
-        n_components=options.n_components,
-        quick=options.sweep == "quick",
-    )
+    shape = {"n_components": options.n_components, "quick": options.sweep == "quick"}
+    peers, left_out = peer_tables("slow" if options.sweep == "full" else "fast", n, **shape)
+    named = {name for name, _ in left_out} & set(options.methods)
+    if named:
+        # A peer named in --methods joins whatever its tier; one that cannot run here is an
+        # error that says why (the package to install, the rows it needs).
+        every, cannot = peer_tables("slow", n, **shape)
+        for name, why in cannot:
+            if name in named:
+                raise InputError(f"--methods names {name!r}, which cannot run here: {why}")
+        peers = [t for t in every if t in peers or t["name"] in named]
+        left_out = [(name, why) for name, why in left_out if name not in named]
     tables += peers
     tables += [{"name": name} for name in plugin_names]
     for target in options.extra:
@@ -404,6 +406,11 @@ def plan_comparison(
         },
         "missing": _missing_criteria(dataset.labels is not None, options.labels),
     }
+    from lowdim.run.suites import suite_from_dict
+
+    # The whole suite check now, before any folder is made: a mistake is one line and
+    # nothing is written.
+    suite_from_dict(suite, source=_source(path))
     return ComparePlan(
         file=path,
         suite=suite,
@@ -415,13 +422,36 @@ def plan_comparison(
     )
 
 
+def _check_import(target: str) -> None:
+    """A ``--with`` target must import and be a transformer class."""
+    from lowdim.methods import import_object
+    from lowdim.run.suite_checks import transformer_problem
+
+    if ":" not in target:
+        raise InputError(
+            f"--with {target!r} must name a class as module:Class, e.g. "
+            "--with sklearn.manifold:Isomap"
+        )
+    try:
+        obj = import_object(target)
+    except InputError as exc:
+        raise InputError(f"--with: {exc}") from None
+    problem = transformer_problem(obj) if isinstance(obj, type) else "is not a class"
+    if problem:
+        raise InputError(f"--with {target!r} {problem}")
+
+
+def _source(path: Path) -> str:
+    return f"<lowdim compare {path.name}>"
+
+
 def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -> Any:
     """Run the plan's suite into its folder, its context kept in the settings record, the
     resamples as the blocks of the tests; return the runner's summary."""
     from lowdim.run.runner import run_suite
     from lowdim.run.suites import suite_from_dict
 
-    suite = suite_from_dict(plan.suite, source=f"<lowdim compare {plan.file.name}>")
+    suite = suite_from_dict(plan.suite, source=_source(plan.file))
     return run_suite(
         suite,
         plan.out_dir,

@@ -20,10 +20,16 @@ from typing import Any
 from lowdim.errors import InputError, suggestion
 from lowdim.run.memory_needs import format_bytes, memory_need
 
-__all__ = ["method_defaults", "check_construction", "file_size", "check_memory"]
+__all__ = [
+    "transformer_problem",
+    "method_defaults",
+    "check_construction",
+    "file_size",
+    "check_memory",
+]
 
 
-def _transformer_problem(cls: type) -> str | None:
+def transformer_problem(cls: type) -> str | None:
     """Why ``cls`` cannot be run as a method, as a phrase, or None."""
     has = {name: callable(getattr(cls, name, None)) for name in ("fit", "transform")}
     has["fit_transform"] = callable(getattr(cls, "fit_transform", None))
@@ -70,7 +76,7 @@ def method_defaults(cls: Any, target: str, key: str, where: str, given: list[str
             f"{where}: `{key} = {target!r}` is not a class but a {type(cls).__name__}; name "
             "an estimator class"
         )
-    problem = _transformer_problem(cls)
+    problem = transformer_problem(cls)
     if problem:
         raise InputError(f"{where}: `{key} = {target!r}` {problem}")
     if not callable(getattr(cls, "get_params", None)):
