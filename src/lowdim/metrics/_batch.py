@@ -131,6 +131,7 @@ class _Job:
                 Z = {"X": self.X, "Y": self.Y, "truth": self.truth}[which]
                 self.cache[key] = centred_distance_ranks(Z, self.subset)
                 if memo is not None:
+                    self.cache[key].setflags(write=False)
                     memo[kept_as] = self.cache[key]
         return self.cache[key]
 

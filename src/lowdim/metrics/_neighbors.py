@@ -359,6 +359,7 @@ class Neighbourhoods:
             return np.ascontiguousarray(kept[:, : self.k_lists])
         lists = knn_lists(self.X, self.k_lists)
         if self.memo is not None:
+            lists.setflags(write=False)  # shared by later embeddings: never changed in place
             self.memo["lists"] = lists
         return lists
 

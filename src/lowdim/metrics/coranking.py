@@ -143,6 +143,7 @@ def full_coranking(ctx: Neighbourhoods) -> tuple[np.ndarray, np.ndarray]:
         D[np.arange(blk.size), blk] = -np.inf
         ranks = _row_ranks(D)
         if kept is not None:
+            ranks.setflags(write=False)
             kept[start] = ranks
         return ranks
 
