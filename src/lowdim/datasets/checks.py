@@ -139,7 +139,8 @@ def numeric_matrix(frame: pd.DataFrame, where: str, notes: list[str] | None = No
             raise InputError(
                 f"{where}: column {column!r} holds text where numbers are expected, first "
                 f"{values.iloc[row]!r} at data row {row + 1} (counting from 1, header not "
-                "counted); fix the value, or pass the column as `labels` or list it in `drop`"
+                "counted); fix the value, or pass the column as the labels (--labels on the "
+                "command line, `labels` in a suite) or drop it (--drop, `drop`)"
             )
         converted[column] = coerced
     if booleans and notes is not None:
