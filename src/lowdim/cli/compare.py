@@ -14,14 +14,8 @@ import shlex
 import sys
 
 from lowdim._files import write_text
-from lowdim.analysis.engine import analyse_folder
 from lowdim.cli.paths import check_out_folder
 from lowdim.cli.run import add_wait_argument
-from lowdim.datasets.headers import check_readable
-from lowdim.report import build_report
-from lowdim.report.recommendation import embed_command, recommendation
-from lowdim.report.text import fixed_width, wrap_sentence
-from lowdim.report.views import overall_table
 from lowdim.run.compare import (
     MAX_ROWS,
     SCALES,
@@ -142,6 +136,8 @@ def options_from(args: argparse.Namespace) -> CompareOptions:
 
 
 def run(args: argparse.Namespace) -> int:
+    from lowdim.datasets.headers import check_readable
+
     out = check_out_folder(args.out) if args.out else None
     try:
         check_readable(args.file, f"the data file {args.file!r}")
@@ -155,6 +151,13 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _compare(plan: ComparePlan, args: argparse.Namespace) -> int:
+    # scipy.stats and matplotlib load only when a comparison runs (see lowdim.cli.run)
+    from lowdim.analysis.engine import analyse_folder
+    from lowdim.report import build_report
+    from lowdim.report.recommendation import embed_command, recommendation
+    from lowdim.report.text import fixed_width, wrap_sentence
+    from lowdim.report.views import overall_table
+
     for note in plan.warnings:
         print(f"lowdim: warning: {note}", file=sys.stderr)
     for finding in plan.context["findings"]:

@@ -21,7 +21,6 @@ import numpy as np
 
 from lowdim._files import atomic_path
 from lowdim.cli.paths import check_out_file_folder
-from lowdim.datasets.headers import check_readable
 from lowdim.errors import InputError, suggestion
 
 HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
@@ -255,6 +254,7 @@ def _quality_columns(X: np.ndarray, Y: np.ndarray, k: int) -> dict[str, np.ndarr
 
 def run(args: argparse.Namespace) -> int:
     from lowdim import datasets
+    from lowdim.datasets.headers import check_readable
 
     out = Path(args.out)
     _check_quality(args.quality, _check_output(out))

@@ -4,11 +4,6 @@ from __future__ import annotations
 
 import argparse
 
-from lowdim.metrics import get_metric, metric_names
-from lowdim.metrics._batch import FULL_RANK, PAIRWISE, SAMPLED
-from lowdim.metrics._neighbors import EXACT_THRESHOLD, FULL_RANK_THRESHOLD, SAMPLE_SIZE
-from lowdim.metrics.distances import PAIR_POINTS
-
 HELP = "list the quality criteria: which way is better, what data each needs, K, and its source"
 
 _NEEDS = {None: "the data and the embedding", "labels": "class labels", "truth": "ground truth"}
@@ -20,6 +15,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def describe_metric(name: str) -> list[str]:
     """Lines describing one criterion."""
+    from lowdim.metrics import get_metric
+    from lowdim.metrics._batch import FULL_RANK, PAIRWISE, SAMPLED
+    from lowdim.metrics._neighbors import EXACT_THRESHOLD, FULL_RANK_THRESHOLD, SAMPLE_SIZE
+    from lowdim.metrics.distances import PAIR_POINTS
+
     metric = get_metric(name)
     direction = "higher is better" if metric.higher_is_better else "lower is better"
     lines = [f"{name}  ({direction})", f"    {metric.description}"]
@@ -44,6 +44,8 @@ def describe_metric(name: str) -> list[str]:
 
 
 def run(args: argparse.Namespace) -> int:
+    from lowdim.metrics import get_metric, metric_names
+
     names = args.names or metric_names()
     for name in names:
         get_metric(name)  # unknown names fail before anything is printed

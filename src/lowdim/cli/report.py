@@ -10,7 +10,6 @@ from __future__ import annotations
 import argparse
 
 from lowdim.cli.paths import user_path
-from lowdim.report import build_report
 
 HELP = (
     "rebuild the report of a results folder from its store alone: scores, statistics, "
@@ -30,6 +29,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from lowdim.report import build_report
+
     path = build_report(user_path(args.folder), selection=args.select)
     print(f"report written to {path}")
     return 0

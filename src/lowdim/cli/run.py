@@ -7,12 +7,8 @@ import shlex
 import sys
 from pathlib import Path
 
-from lowdim.analysis.engine import analyse_folder
 from lowdim.cli.paths import check_out_folder
 from lowdim.errors import InputError
-from lowdim.report import build_report
-from lowdim.report.build import write_tables
-from lowdim.report.text import run_summary
 from lowdim.run.folder import results_folder
 from lowdim.run.runner import BACKENDS, RunSummary, run_suite
 from lowdim.run.suites import load_suite
@@ -79,6 +75,13 @@ def summary_line(summary: RunSummary) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    # The analysis and the report load scipy.stats and matplotlib: only when a run needs them,
+    # so that `lowdim --help` and the light commands start at once.
+    from lowdim.analysis.engine import analyse_folder
+    from lowdim.report import build_report
+    from lowdim.report.build import write_tables
+    from lowdim.report.text import run_summary
+
     if args.scheduler:
         if args.backend != "dask":
             raise InputError("--scheduler is for the dask backend; add --backend dask")
