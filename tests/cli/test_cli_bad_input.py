@@ -10,9 +10,9 @@ import textwrap
 
 import numpy as np
 import pytest
+from cli_helpers import assert_one_line_error, run_cli
 
 import lowdim.cli.embed as embed_command
-from lowdim.cli import main
 
 GOOD_ROWS = "".join(f"{i},{np.sin(i):.4f},{np.cos(i):.4f}\n" for i in range(40))
 
@@ -28,20 +28,6 @@ BAD_FILES = {
     "one_row.csv": (b"depth,salinity\n1,35.1\n", "only one data row"),
     "identical.csv": (b"depth,salinity\n" + b"4,35.0\n" * 6, "nothing to reduce"),
 }
-
-
-def run_cli(args, capsys):
-    status = main(args)
-    err = capsys.readouterr().err
-    return status, err
-
-
-def assert_one_line_error(status, err, fragment):
-    assert status == 2, err
-    assert err.startswith("lowdim: error: "), err
-    assert err.count("\n") == 1, err
-    assert "Traceback" not in err
-    assert fragment in err, err
 
 
 @pytest.fixture
@@ -65,7 +51,8 @@ def test_bad_data_file(command, name, folder, capsys):
         args = ["embed", str(path), "--method", "pca", "--out", str(folder / "out" / "e.csv")]
     else:
         args = ["compare", str(path), "--quick", "--out", str(folder / "out" / "results")]
-    assert_one_line_error(*run_cli(args, capsys), fragment)
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, fragment)
     assert left_behind(folder) == []
 
 
@@ -74,7 +61,8 @@ def test_missing_file(command, folder, capsys):
     args = [command, str(folder / "absent.csv"), "--out", str(folder / "out" / "x.csv")]
     if command == "embed":
         args += ["--method", "pca"]
-    assert_one_line_error(*run_cli(args, capsys), "data file")
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "data file")
     assert left_behind(folder) == []
 
 
@@ -106,19 +94,22 @@ def test_bad_method_settings(method, settings, fragment, reef, folder, capsys):
     args = ["embed", str(reef), "--method", method, "--out", str(folder / "out" / "e.csv")]
     for item in settings:
         args += ["--set", item]
-    assert_one_line_error(*run_cli(args, capsys), fragment)
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, fragment)
     assert left_behind(folder) == []
 
 
 def test_bad_output_extension(reef, folder, capsys):
     args = ["embed", str(reef), "--method", "pca", "--out", str(folder / "out" / "e.xlsx")]
-    assert_one_line_error(*run_cli(args, capsys), "must end in .csv or .npy")
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "must end in .csv or .npy")
     assert left_behind(folder) == []
 
 
 def test_unknown_label_column(reef, folder, capsys):
     args = ["compare", str(reef), "--labels", "species", "--out", str(folder / "out" / "r")]
-    assert_one_line_error(*run_cli(args, capsys), "species")
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "species")
     assert left_behind(folder) == []
 
 
@@ -132,7 +123,8 @@ def test_unknown_label_column(reef, folder, capsys):
 )
 def test_a_with_that_is_not_a_transformer_writes_nothing(target, fragment, reef, folder, capsys):
     args = ["compare", str(reef), "--quick", "--with", target, "--out", str(folder / "out" / "r")]
-    assert_one_line_error(*run_cli(args, capsys), fragment)
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, fragment)
     assert left_behind(folder) == []
 
 
@@ -140,7 +132,8 @@ def test_suite_that_is_not_toml(folder, capsys):
     suite = folder / "broken.toml"
     suite.write_text('[suite]\nname = "reef\n')
     args = ["run", str(suite), "--out", str(folder / "out" / "r")]
-    assert_one_line_error(*run_cli(args, capsys), "not valid TOML")
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "not valid TOML")
     assert left_behind(folder) == []
 
 
@@ -162,7 +155,8 @@ def test_suite_with_an_unknown_key(folder, capsys):
         )
     )
     args = ["run", str(suite), "--out", str(folder / "out" / "r")]
-    assert_one_line_error(*run_cli(args, capsys), "unknown key `seedz` (did you mean 'seeds'?)")
+    status, _, err = run_cli(args, capsys)
+    assert_one_line_error(status, err, "unknown key `seedz` (did you mean 'seeds'?)")
     assert left_behind(folder) == []
 
 
@@ -174,7 +168,7 @@ def test_a_retired_family_name_is_an_unknown_dataset(old_name, folder, capsys):
         f'[suite]\nname = "reef"\n[[datasets]]\nname = "{old_name}"\n[[methods]]\nname = "pca"\n'
     )
     args = ["run", str(suite), "--out", str(folder / "out" / "r")]
-    status, err = run_cli(args, capsys)
+    status, _, err = run_cli(args, capsys)
     assert_one_line_error(status, err, f"unknown dataset {old_name!r}")
     assert "the known datasets are" in err
     for family in ["coiled_ring", "peaked_sheet", "swiss_gap", "swiss_roll"]:
@@ -188,7 +182,7 @@ def test_internal_error_is_called_a_defect_with_a_log(reef, folder, capsys, monk
 
     monkeypatch.setattr(embed_command, "write_embedding", broken_writer)
     args = ["embed", str(reef), "--method", "pca", "--out", str(folder / "out" / "e.csv")]
-    status, err = run_cli(args, capsys)
+    status, _, err = run_cli(args, capsys)
     assert status == 1
     assert err.count("\n") == 1
     assert "internal error (a defect in lowdim, please report it)" in err

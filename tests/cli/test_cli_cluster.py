@@ -10,13 +10,13 @@ from __future__ import annotations
 import os
 import signal
 import socket
-import sqlite3
 import subprocess
 import sys
 import time
 from pathlib import Path
 
 import pytest
+from cli_helpers import finished, rows
 
 distributed = pytest.importorskip("distributed")
 
@@ -45,21 +45,6 @@ def lowdim(*args: str, cwd: Path, timeout: float = 120) -> subprocess.CompletedP
     return subprocess.run(
         [*PYTHON, *args], cwd=cwd, capture_output=True, text=True, timeout=timeout
     )
-
-
-def rows(folder: Path, sql: str) -> list[tuple]:
-    db = sqlite3.connect(f"file:{folder / 'store.sqlite'}?mode=ro", uri=True)
-    try:
-        return list(db.execute(sql))
-    finally:
-        db.close()
-
-
-def finished(folder: Path) -> int:
-    try:
-        return rows(folder, "SELECT COUNT(*) FROM jobs")[0][0]
-    except sqlite3.OperationalError:
-        return 0
 
 
 def wait_for(predicate, seconds: float, what: str) -> None:

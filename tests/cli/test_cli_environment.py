@@ -17,27 +17,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from cli_helpers import assert_one_line_error, run_cli
 
 import lowdim.cli.embed as embed_command
 import lowdim.cli.paths as paths_module
-from lowdim.cli import main
 from lowdim.cli.main import environment_message
 
 ROOT = os.geteuid() == 0  # root reads and writes whatever the permission bits say
-
-
-def run_cli(args, capsys):
-    status = main([str(a) for a in args])
-    captured = capsys.readouterr()
-    return status, captured.out, captured.err
-
-
-def assert_one_line_error(status, err, *fragments):
-    assert status == 2, err
-    assert err.startswith("lowdim: error: ") and err.count("\n") == 1, err
-    assert "internal error" not in err and "Traceback" not in err
-    for fragment in fragments:
-        assert fragment in err, err
 
 
 @pytest.fixture

@@ -23,9 +23,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from cli_helpers import assert_one_line_error, run_cli
 
 from lowdim import __version__
-from lowdim.cli import main
 
 PYTHON = [sys.executable, "-m", "lowdim"]
 
@@ -94,19 +94,6 @@ def write_suite(folder: Path, methods: list[str], *, name="survey", timeout=60, 
         + "".join(f'[[methods]]\nname = "{m}"\n' for m in methods)
     )
     return path
-
-
-def run_cli(args, capsys):
-    status = main([str(a) for a in args])
-    captured = capsys.readouterr()
-    return status, captured.out, captured.err
-
-
-def assert_one_line_error(status, err, *fragments):
-    assert status == 2, err
-    assert err.startswith("lowdim: error: ") and err.count("\n") == 1, err
-    for fragment in fragments:
-        assert fragment in err, err
 
 
 def lock_record(out: Path) -> dict | None:

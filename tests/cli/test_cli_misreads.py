@@ -14,27 +14,13 @@ import textwrap
 import numpy as np
 import pandas as pd
 import pytest
+from cli_helpers import assert_one_line_error, run_cli
 from numpy.testing import assert_allclose
 from sklearn.decomposition import PCA
-
-from lowdim.cli import main
 
 RNG = np.random.default_rng(7)
 # A made-up orchard survey: 40 trees, three numeric readings.
 READINGS = RNG.normal(size=(40, 3)) * [2.0, 1.0, 0.5]
-
-
-def run_cli(args, capsys):
-    status = main([str(a) for a in args])
-    captured = capsys.readouterr()
-    return status, captured.out, captured.err
-
-
-def assert_one_line_error(status, err, *fragments):
-    assert status == 2, err
-    assert err.startswith("lowdim: error: ") and err.count("\n") == 1, err
-    for fragment in fragments:
-        assert fragment in err, err
 
 
 def write_csv(path, header, rows):

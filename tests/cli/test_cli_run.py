@@ -6,13 +6,13 @@ import csv
 import json
 import os
 import signal
-import sqlite3
 import subprocess
 import sys
 import time
 from pathlib import Path
 
 import pytest
+from cli_helpers import finished, rows
 from run_fakes import write_plugin
 
 PYTHON = [sys.executable, "-m", "lowdim"]
@@ -34,22 +34,6 @@ def write_suite(folder: Path, name: str, methods: str, *, seeds="[0, 1]", n=120,
         f'[[datasets]]\nname = "two_moons"\nn = {n}\nnoise = 0.05\n' + methods
     )
     return path
-
-
-def rows(folder: Path, sql: str) -> list[tuple]:
-    db = sqlite3.connect(f"file:{folder / 'store.sqlite'}?mode=ro", uri=True)
-    try:
-        return list(db.execute(sql))
-    finally:
-        db.close()
-
-
-def finished(folder: Path) -> int:
-    """Jobs in the store so far (0 while the store is still being created)."""
-    try:
-        return rows(folder, "SELECT COUNT(*) FROM jobs")[0][0]
-    except sqlite3.OperationalError:
-        return 0
 
 
 def score_lines(folder: Path) -> list[tuple]:
