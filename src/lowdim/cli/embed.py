@@ -22,6 +22,7 @@ import numpy as np
 from lowdim._files import atomic_path
 from lowdim.cli.paths import check_out_file_folder
 from lowdim.errors import InputError, suggestion
+from lowdim.run.compare import file_spec
 
 HELP = "embed one data file with one method and write the coordinates as CSV or NPY"
 
@@ -281,18 +282,16 @@ def run(args: argparse.Namespace) -> int:
             "--keep copies columns into the output, which only a .csv output holds; write to a "
             ".csv file or leave out --keep"
         )
-    spec: dict[str, Any] = {"file": args.file}
-    if args.labels:
-        spec["labels"] = args.labels
-    for key in ("drop", "features", "keep"):
-        if getattr(args, key):
-            spec[key] = list(getattr(args, key))
-    if args.scale != "none":
-        spec["scale"] = args.scale
-    if args.log1p:
-        spec["log1p"] = True
-    if args.pca_first is not None:
-        spec["pca_first"] = args.pca_first
+    spec = file_spec(
+        args.file,
+        labels=args.labels,
+        features=args.features,
+        drop=args.drop,
+        keep=args.keep,
+        scale=args.scale,
+        log1p=args.log1p,
+        pca_first=args.pca_first,
+    )
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         dataset = datasets.load(spec)

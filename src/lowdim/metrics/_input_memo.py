@@ -41,9 +41,10 @@ def lookup(X: np.ndarray) -> dict[Any, Any] | None:
     """The kept input-side values of X (a dict to read and fill), or None."""
     if not _MEMOS or X.shape[0] > MAX_ROWS:
         return None
-    memo = _MEMOS.get(_key(X))
+    key = _key(X)
+    memo = _MEMOS.get(key)
     if memo is not None:
-        _MEMOS.move_to_end(_key(X))
+        _MEMOS.move_to_end(key)
     return memo
 
 

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import re
 import warnings
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -30,6 +31,7 @@ from lowdim.run.sweeps import SWEEPS, method_tables, neighbour_grid, select_meth
 
 __all__ = [
     "MAX_ROWS",
+    "file_spec",
     "FRACTION",
     "RESAMPLES",
     "SCALES",
@@ -101,6 +103,8 @@ class ComparePlan:
     options: CompareOptions = field(default_factory=CompareOptions)
     plugins: tuple[str, ...] = ()
     warnings: list[str] = field(default_factory=list)
+    checked: Any = None
+    """``suite`` validated at planning time (a :class:`lowdim.run.suites.Suite`)."""
 
     @property
     def n_settings(self) -> int:
@@ -221,26 +225,43 @@ def _check_options(options: CompareOptions) -> None:
         )
 
 
-def _spec(path: Path, options: CompareOptions, *, preprocessing: bool) -> dict[str, Any]:
-    """The file's dataset spec: ``--keep`` columns are never features (the ``embed`` command
+def file_spec(
+    file: str,
+    *,
+    labels: str | None = None,
+    features: Sequence[str] = (),
+    drop: Sequence[str] = (),
+    keep: Sequence[str] = (),
+    scale: str = "none",
+    log1p: bool = False,
+    pca_first: int | None = None,
+) -> dict[str, Any]:
+    """A data file's dataset spec from the command line's column and preprocessing options,
+    the same for ``compare`` and ``embed``: ``keep`` columns are never features (``embed``
     carries them into its output)."""
-    spec: dict[str, Any] = {"file": str(path.resolve())}
-    if options.labels:
-        spec["labels"] = options.labels
-    if options.features:
-        spec["features"] = list(options.features)
-    if options.drop:
-        spec["drop"] = list(options.drop)
-    if options.keep:
-        spec["keep"] = list(options.keep)
-    if preprocessing:
-        if options.scale != "none":
-            spec["scale"] = options.scale
-        if options.log1p:
-            spec["log1p"] = True
-        if options.pca_first is not None:
-            spec["pca_first"] = options.pca_first
+    spec: dict[str, Any] = {"file": file}
+    if labels:
+        spec["labels"] = labels
+    for key, columns in (("features", features), ("drop", drop), ("keep", keep)):
+        if columns:
+            spec[key] = list(columns)
+    if scale != "none":
+        spec["scale"] = scale
+    if log1p:
+        spec["log1p"] = True
+    if pca_first is not None:
+        spec["pca_first"] = pca_first
     return spec
+
+
+def _spec(path: Path, options: CompareOptions, *, preprocessing: bool) -> dict[str, Any]:
+    """The compared file's dataset spec, with or without the preprocessing options."""
+    columns = {"features": options.features, "drop": options.drop, "keep": options.keep}
+    if preprocessing:
+        steps = {"scale": options.scale, "log1p": options.log1p, "pca_first": options.pca_first}
+    else:
+        steps = {}
+    return file_spec(str(path.resolve()), labels=options.labels, **columns, **steps)
 
 
 def _load(spec: dict, *, check_scale: bool = True) -> tuple[Any, list[str]]:
@@ -410,7 +431,7 @@ def plan_comparison(
 
     # The whole suite check now, before any folder is made: a mistake is one line and
     # nothing is written.
-    suite_from_dict(suite, source=_source(path))
+    checked = suite_from_dict(suite, source=f"<lowdim compare {path.name}>")
     return ComparePlan(
         file=path,
         suite=suite,
@@ -419,6 +440,7 @@ def plan_comparison(
         options=options,
         plugins=tuple(plugins),
         warnings=notes,
+        checked=checked,
     )
 
 
@@ -441,19 +463,13 @@ def _check_import(target: str) -> None:
         raise InputError(f"--with {target!r} {problem}")
 
 
-def _source(path: Path) -> str:
-    return f"<lowdim compare {path.name}>"
-
-
 def run_comparison(plan: ComparePlan, *, n_jobs: int = 1, quiet: bool = False) -> Any:
     """Run the plan's suite into its folder, its context kept in the settings record, the
     resamples as the blocks of the tests; return the runner's summary."""
     from lowdim.run.runner import run_suite
-    from lowdim.run.suites import suite_from_dict
 
-    suite = suite_from_dict(plan.suite, source=_source(plan.file))
     return run_suite(
-        suite,
+        plan.checked,
         plan.out_dir,
         n_jobs=n_jobs,
         quiet=quiet,
